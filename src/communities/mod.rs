@@ -1,0 +1,80 @@
+//! Stage 5: participant graphs to a consensus [`Partition`].
+//!
+//! Louvain modularity optimisation per density (seeded trials, best kept) and the consensus
+//! across the density sweep (Lancichinetti & Fortunato 2012). Infomap and Leiden will sit beside
+//! Louvain as further methods.
+
+// OWNER: communities helper. Keep the public names below; add modules (louvain.rs, quality.rs,
+// consensus.rs, ...) as the work needs.
+
+use ndarray::Array2;
+
+/// A partition of participants into communities.
+///
+/// `membership[p]` is participant p's community: 1..=k numbered by decreasing size (ties by
+/// smallest participant index), or 0 for unassigned (a community below the minimum size, or an
+/// isolated participant).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Partition {
+    /// Community of each participant, in cohort order; 0 = unassigned.
+    pub membership: Vec<usize>,
+}
+
+/// Tunables of community detection (defaults live in `crate::config`).
+#[derive(Debug, Clone)]
+pub struct CommunityOptions {
+    /// Proportional densities of the sweep, each in (0, 1].
+    pub densities: Vec<f64>,
+    /// Seeded Louvain trials per density; the highest modularity is kept.
+    pub trials: usize,
+    /// Modularity resolution parameter gamma (1 = Newman-Girvan modularity).
+    pub resolution: f64,
+    /// Communities with fewer participants are reported as unassigned (community 0).
+    pub min_community_size: usize,
+    /// Co-assignment threshold tau of the consensus (Lancichinetti & Fortunato 2012).
+    pub consensus_threshold: f64,
+    /// Run seed; every trial derives its own seed from it (`crate::seed`).
+    pub seed: u64,
+}
+
+/// What one density of the sweep gave.
+#[derive(Debug, Clone)]
+pub struct DensityResult {
+    /// Proportional density asked for.
+    pub density: f64,
+    /// Undirected edges kept.
+    pub edge_count: usize,
+    /// Participants with no edge at this density (cohort indices).
+    pub isolated: Vec<usize>,
+    /// Communities in the best trial (before the minimum-size rule).
+    pub community_count: usize,
+    /// Modularity of the best trial.
+    pub modularity: f64,
+    /// Weight this density received in the consensus (0 = left out), per the documented rule.
+    pub consensus_weight: f64,
+    /// The best trial's membership (0-based community labels, cohort order).
+    pub membership: Vec<usize>,
+}
+
+/// The result of community detection over the sweep.
+#[derive(Debug, Clone)]
+pub struct CommunityResult {
+    /// The consensus partition.
+    pub partition: Partition,
+    /// One row per density of the sweep, in sweep order.
+    pub densities: Vec<DensityResult>,
+    /// Weighted co-assignment matrix (fraction of weighted trials placing p and q together).
+    pub coassignment: Array2<f32>,
+    /// Consensus iterations until the partition was stable.
+    pub consensus_iterations: usize,
+    /// Modularity of the consensus partition on the co-assignment graph.
+    pub consensus_modularity: f64,
+}
+
+/// Community detection could not run on the participant graph.
+#[derive(Debug, thiserror::Error)]
+pub enum CommunityError {
+    /// Every density of the sweep left a graph without edges.
+    #[error("no density of the sweep kept any edge between participants (all similarities are negative or zero); check the inputs, or raise --densities")]
+    NoEdges,
+}

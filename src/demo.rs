@@ -1,0 +1,3 @@
+//! The fictional Northfield Sleep and Mood cohort generator.
+
+// OWNER: demo helper.

@@ -1,0 +1,55 @@
+//! The crate's top-level error: one variant per domain, each wrapping that domain's own enum.
+//!
+//! Domain enums live beside their stage (`read::ReadError`, `features::FeatureError`, ...) and
+//! carry what their message needs: what was found, what was expected, where (file, participant,
+//! column, flag) and what to do. The command line maps each domain to an exit code.
+
+use thiserror::Error;
+
+/// Any failure of a strata run.
+#[derive(Debug, Error)]
+pub enum Error {
+    /// The command line or configuration is invalid.
+    #[error(transparent)]
+    Config(#[from] crate::config::ConfigError),
+    /// An input file or the participants table is missing, unreadable or invalid.
+    #[error(transparent)]
+    Read(#[from] crate::read::ReadError),
+    /// The inputs read but cannot form a valid feature matrix.
+    #[error(transparent)]
+    Feature(#[from] crate::features::FeatureError),
+    /// Community detection could not run on the participant graph.
+    #[error(transparent)]
+    Community(#[from] crate::communities::CommunityError),
+    /// An output could not be written.
+    #[error(transparent)]
+    Write(#[from] crate::maps::WriteError),
+}
+
+/// Process exit codes, documented in `--help` and the README.
+pub mod exit_code {
+    /// The run finished and wrote its outputs.
+    pub const SUCCESS: i32 = 0;
+    /// An unexpected internal failure (a bug: please report it).
+    pub const INTERNAL: i32 = 1;
+    /// The command line or configuration is invalid (clap's own usage errors also exit 2).
+    pub const USAGE: i32 = 2;
+    /// The input data (files or participants table) is invalid; nothing was written.
+    pub const INPUT: i32 = 3;
+    /// The analysis could not be carried out on valid inputs (for example no usable graph).
+    pub const ANALYSIS: i32 = 4;
+    /// The outputs could not be written (folder exists, disk full, permissions).
+    pub const OUTPUT: i32 = 5;
+}
+
+impl Error {
+    /// The exit code for this error.
+    pub fn exit_code(&self) -> i32 {
+        match self {
+            Error::Config(_) => exit_code::USAGE,
+            Error::Read(_) | Error::Feature(_) => exit_code::INPUT,
+            Error::Community(_) => exit_code::ANALYSIS,
+            Error::Write(_) => exit_code::OUTPUT,
+        }
+    }
+}

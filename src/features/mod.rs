@@ -1,0 +1,110 @@
+//! Stage 2: a [`crate::read::Cohort`] to a [`FeatureMatrix`] and its [`FeatureSpace`].
+//!
+//! Masking (a given mask, or the voxels finite and non-zero in every participant), the upper
+//! triangle without the diagonal for matrices, and Fisher z = atanh(r) with a documented clip
+//! near |r| = 1. Values are decoded in parallel straight into their participant's row.
+//! Similarity is the next stage's job.
+
+// OWNER: read helper. Public interface used by the pipeline (keep these names):
+//   build_features(&Cohort, &FeatureOptions) -> Result<Features, FeatureError>
+
+use ndarray::Array2;
+
+/// Participant-by-feature values: one row per participant (in cohort order), f32.
+#[derive(Debug, Clone)]
+pub struct FeatureMatrix {
+    /// N x F values, standard (row-major) layout.
+    pub values: Array2<f32>,
+}
+
+impl FeatureMatrix {
+    /// Number of participants (rows).
+    pub fn participant_count(&self) -> usize {
+        self.values.nrows()
+    }
+
+    /// The values as one row-major slice (the matrix is always kept in standard layout).
+    pub fn row_major(&self) -> &[f32] {
+        self.values.as_slice().expect("FeatureMatrix is always in standard (row-major) layout")
+    }
+
+    /// Number of features (columns).
+    pub fn feature_count(&self) -> usize {
+        self.values.ncols()
+    }
+}
+
+/// Where each feature came from, and how a length-F vector is written back in the user's format.
+#[derive(Debug, Clone)]
+pub enum FeatureSpace {
+    /// Masked voxels of a 3D grid.
+    Voxels(VoxelSpace),
+    /// Upper-triangle edges (i < j, row-major: numpy's `triu_indices(R, 1)` order) of R x R matrices.
+    Edges(EdgeSpace),
+}
+
+/// A voxel feature space: the input grid, its affine and the mask.
+#[derive(Debug, Clone)]
+pub struct VoxelSpace {
+    /// Grid dimensions (i, j, k).
+    pub dim: [usize; 3],
+    /// Voxel sizes in mm (pixdim[1..4]).
+    pub voxel_size: [f32; 3],
+    /// Voxel-to-world affine (rows of a 4 x 4 matrix), from the sform if set, else the qform.
+    pub affine: [[f64; 4]; 4],
+    /// The first input's header, used as the reference for written maps (grid, xforms, units).
+    pub reference_header: nifti::NiftiHeader,
+    /// Flat voxel index of each feature, in NIfTI file (Fortran) order: i + nx * (j + ny * k).
+    pub mask: Vec<usize>,
+}
+
+/// An edge feature space over an atlas of R regions.
+#[derive(Debug, Clone)]
+pub struct EdgeSpace {
+    /// Number of regions R.
+    pub region_count: usize,
+    /// Region names (from an atlas table if given, else `region-001`...).
+    pub region_names: Vec<String>,
+}
+
+impl EdgeSpace {
+    /// The (i, j) regions of edge feature `index` (i < j).
+    pub fn edge(&self, index: usize) -> (usize, usize) {
+        // Row i holds R - 1 - i edges; walk rows until the index falls inside one.
+        let regions = self.region_count;
+        let mut remaining = index;
+        for row in 0..regions {
+            let row_len = regions - 1 - row;
+            if remaining < row_len {
+                return (row, row + 1 + remaining);
+            }
+            remaining -= row_len;
+        }
+        panic!("edge index {index} out of range for {regions} regions");
+    }
+}
+
+impl FeatureSpace {
+    /// Number of features this space describes.
+    pub fn feature_count(&self) -> usize {
+        match self {
+            FeatureSpace::Voxels(space) => space.mask.len(),
+            FeatureSpace::Edges(space) => space.region_count * space.region_count.saturating_sub(1) / 2,
+        }
+    }
+}
+
+/// The inputs read but cannot form a valid feature matrix.
+#[derive(Debug, thiserror::Error)]
+pub enum FeatureError {
+    /// A participant's values are constant, so its similarity to anyone is undefined.
+    #[error("{path}: participant {participant}: all {feature_count} features have the same value; check the file is the right one (a blank map or matrix cannot be compared)")]
+    ConstantParticipant {
+        /// The participant's file.
+        path: std::path::PathBuf,
+        /// The participant.
+        participant: String,
+        /// Number of features.
+        feature_count: usize,
+    },
+}

@@ -1,0 +1,46 @@
+//! strata: data-driven participant subgroups from connectivity data.
+//!
+//! An imaging cohort (per-participant seed maps or region-by-region connectivity matrices, plus a
+//! BIDS-style participants table) flows one way through these stages:
+//!
+//! ```text
+//! read  ->  features  ->  similarity  ->  graph  ->  communities  ->  validation  ->  stats  ->  maps / report
+//! files     N x F f32     N x N f32       CSR per     partition per    agreement       per-community  NIfTI / npy /
+//!           + space       Pearson         density     density, then    (ARI, NMI, VI)  statistics     TSV / JSON
+//!                                                     consensus
+//! ```
+//!
+//! * [`read`]: participants table and input files, matched and checked, decoded in parallel.
+//! * [`features`]: masking, vectorising, Fisher z: the [`features::FeatureMatrix`] and the
+//!   [`features::FeatureSpace`] that maps a feature vector back to the user's format.
+//! * [`similarity`]: participant-by-participant Pearson similarity through one blocked matrix product.
+//! * [`graph`]: proportional-density participant graphs in compressed sparse rows.
+//! * [`communities`]: Louvain modularity optimisation and the consensus across densities.
+//! * [`validation`]: partition agreement (adjusted Rand index, NMI, variation of information).
+//! * [`stats`]: per-community and whole-cohort group comparisons (Welch t, Hedges g, BH q).
+//! * [`maps`]: statistic vectors to files through the feature space; output naming.
+//! * [`report`]: provenance JSON and the TSV tables of a run.
+//! * [`pipeline`]: the one place that runs the stages in order.
+//!
+//! strata is research software. Subgroup assignments and maps are not diagnoses and are not for
+//! individual clinical decisions.
+
+pub mod communities;
+pub mod config;
+pub mod demo;
+pub mod error;
+pub mod features;
+pub mod graph;
+pub mod maps;
+pub mod pipeline;
+pub mod read;
+pub mod report;
+pub mod seed;
+pub mod similarity;
+pub mod stats;
+pub mod validation;
+
+pub mod cli;
+
+/// The version of strata, as written into provenance and sidecars.
+pub const VERSION: &str = env!("CARGO_PKG_VERSION");

@@ -1,0 +1,1 @@
+//! Runs the stages in order from a [`crate::config::RunConfig`].

@@ -1,0 +1,1 @@
+//! Stage 9: the run summary to provenance JSON and TSV tables.

@@ -1,0 +1,196 @@
+//! Pearson correlation between participants (rows of the feature matrix).
+
+use faer::linalg::matmul::matmul;
+use faer::{Accum, MatMut, MatRef, Par};
+use ndarray::Array2;
+use rayon::prelude::*;
+
+use super::SimilarityMatrix;
+use crate::features::FeatureMatrix;
+
+/// Features per column block of the product. Each block is standardised into a scratch copy of
+/// N x `FEATURE_BLOCK` values, so the extra memory stays small whatever F is; 8,192 f32 columns
+/// keep each tile's operands large enough for the matrix-multiply kernel to run near peak.
+pub const FEATURE_BLOCK: usize = 8192;
+
+/// Participants per output tile. Tiles are the unit of parallel work; their size depends on
+/// nothing but this constant, so every tile is computed the same way at any thread count.
+pub const TILE: usize = 256;
+
+/// Row means and inverse centred norms, accumulated in f64.
+///
+/// Returns `(mean, inverse_norm)` per row; `inverse_norm` is 0 for a constant row (the features
+/// stage refuses those before this point, so a 0 here only guards the arithmetic).
+pub fn standardise_rows(features: &FeatureMatrix) -> (Vec<f64>, Vec<f64>) {
+    let width = features.feature_count().max(1);
+    let rows: Vec<(f64, f64)> = features
+        .row_major()
+        .par_chunks(width)
+        .map(|values| {
+            let count = values.len() as f64;
+            let mean = values.iter().map(|&v| f64::from(v)).sum::<f64>() / count;
+            let sum_squares: f64 = values
+                .iter()
+                .map(|&v| {
+                    let centred = f64::from(v) - mean;
+                    centred * centred
+                })
+                .sum();
+            let inverse_norm = if sum_squares > 0.0 { 1.0 / sum_squares.sqrt() } else { 0.0 };
+            (mean, inverse_norm)
+        })
+        .collect();
+    rows.into_iter().unzip()
+}
+
+/// Pearson correlation between every pair of participants.
+///
+/// r(p, q) = sum_f z_pf z_qf, where z_p = (x_p - mean(x_p)) / ||x_p - mean(x_p)||.
+/// Rows are standardised one column block at a time and the product Z Zt is accumulated block by
+/// block in f64; within a block the lower-triangle tiles run in parallel, each a single-threaded
+/// f32 matrix product (faer), so the result is identical at any thread count. The diagonal is
+/// set to exactly 1.
+///
+/// # Arguments
+/// * `features`: N x F feature matrix, rows in cohort order; no row may be constant.
+///
+/// # Returns
+/// The N x N symmetric similarity matrix.
+///
+/// # Complexity
+/// O(N^2 F) arithmetic (half of it skipped by symmetry), O(N^2 + N * FEATURE_BLOCK) extra memory.
+///
+/// # References
+/// Pearson 1895, Proc R Soc Lond 58:240-242.
+pub fn pearson(features: &FeatureMatrix) -> SimilarityMatrix {
+    let participants = features.participant_count();
+    let feature_count = features.feature_count();
+    let (means, inverse_norms) = standardise_rows(features);
+    let mut accumulated = vec![0.0f64; participants * participants];
+    let tiles = lower_tiles(participants);
+    let mut scratch = vec![0.0f32; participants * FEATURE_BLOCK.min(feature_count.max(1))];
+
+    let mut block_start = 0;
+    while block_start < feature_count {
+        let block_end = (block_start + FEATURE_BLOCK).min(feature_count);
+        let width = block_end - block_start;
+        let block = &mut scratch[..participants * width];
+        block.par_chunks_mut(width).zip(features.row_major().par_chunks(feature_count)).enumerate().for_each(
+            |(row_index, (out, row))| {
+                let values = &row[block_start..block_end];
+                let mean = means[row_index];
+                let scale = inverse_norms[row_index];
+                for (target, &value) in out.iter_mut().zip(values) {
+                    *target = ((f64::from(value) - mean) * scale) as f32;
+                }
+            },
+        );
+        let block: &[f32] = block;
+        let products: Vec<Vec<f32>> = tiles
+            .par_iter()
+            .map(|&(row_tile, col_tile)| tile_product(block, participants, width, row_tile, col_tile))
+            .collect();
+        for (&(row_tile, col_tile), product) in tiles.iter().zip(&products) {
+            let (row_start, row_end) = tile_range(row_tile, participants);
+            let (col_start, col_end) = tile_range(col_tile, participants);
+            let tile_cols = col_end - col_start;
+            for (offset, row) in (row_start..row_end).enumerate() {
+                let target = &mut accumulated[row * participants + col_start..row * participants + col_end];
+                let source = &product[offset * tile_cols..(offset + 1) * tile_cols];
+                for (acc, &value) in target.iter_mut().zip(source) {
+                    *acc += f64::from(value);
+                }
+            }
+        }
+        block_start = block_end;
+    }
+
+    let mut values = Array2::<f32>::zeros((participants, participants));
+    for row in 0..participants {
+        for col in 0..=row {
+            let r = accumulated[row * participants + col].clamp(-1.0, 1.0) as f32;
+            values[[row, col]] = r;
+            values[[col, row]] = r;
+        }
+        values[[row, row]] = 1.0;
+    }
+    SimilarityMatrix { values }
+}
+
+/// The (row tile, column tile) pairs of the lower triangle, column tile <= row tile.
+fn lower_tiles(participants: usize) -> Vec<(usize, usize)> {
+    let tile_count = participants.div_ceil(TILE);
+    (0..tile_count).flat_map(|row_tile| (0..=row_tile).map(move |col_tile| (row_tile, col_tile))).collect()
+}
+
+fn tile_range(tile: usize, participants: usize) -> (usize, usize) {
+    (tile * TILE, ((tile + 1) * TILE).min(participants))
+}
+
+/// One output tile: rows of `row_tile` times columns of `col_tile`, row-major f32.
+fn tile_product(
+    block: &[f32],
+    participants: usize,
+    width: usize,
+    row_tile: usize,
+    col_tile: usize,
+) -> Vec<f32> {
+    let (row_start, row_end) = tile_range(row_tile, participants);
+    let (col_start, col_end) = tile_range(col_tile, participants);
+    let (tile_rows, tile_cols) = (row_end - row_start, col_end - col_start);
+    let lhs = MatRef::from_row_major_slice(&block[row_start * width..row_end * width], tile_rows, width);
+    let rhs = MatRef::from_row_major_slice(&block[col_start * width..col_end * width], tile_cols, width)
+        .transpose();
+    let mut product = vec![0.0f32; tile_rows * tile_cols];
+    let dst = MatMut::from_row_major_slice_mut(&mut product, tile_rows, tile_cols);
+    matmul(dst, Accum::Replace, lhs, rhs, 1.0f32, Par::Seq);
+    product
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn matrix(rows: usize, cols: usize, values: Vec<f32>) -> FeatureMatrix {
+        FeatureMatrix { values: Array2::from_shape_vec((rows, cols), values).unwrap() }
+    }
+
+    #[test]
+    fn perfectly_correlated_and_anticorrelated_rows() {
+        // Common practice: r = 1 for a positive affine copy, r = -1 for a negative one.
+        let features = matrix(3, 4, vec![1.0, 2.0, 3.0, 4.0, 3.0, 5.0, 7.0, 9.0, 4.0, 3.0, 2.0, 1.0]);
+        let similarity = pearson(&features);
+        assert!((similarity.values[[0, 1]] - 1.0).abs() < 1e-6);
+        assert!((similarity.values[[0, 2]] + 1.0).abs() < 1e-6);
+        assert!((similarity.values[[2, 1]] + 1.0).abs() < 1e-6);
+    }
+
+    #[test]
+    fn spans_several_tiles_and_blocks_symmetrically() {
+        // More participants than one tile and more features than one block exercise the
+        // accumulation across blocks and the mirroring of the lower triangle.
+        let participants = TILE + 7;
+        let features = FEATURE_BLOCK + 13;
+        let values: Vec<f32> = (0..participants * features)
+            .map(|index| (((index * 2654435761) % 1000) as f32) / 1000.0)
+            .collect();
+        let features = matrix(participants, features, values);
+        let similarity = pearson(&features);
+        let (p, q) = (3, TILE + 5);
+        // Direct two-pass computation in f64 for one pair.
+        let row_p = features.values.row(p);
+        let row_q = features.values.row(q);
+        let mean_p = row_p.iter().map(|&v| f64::from(v)).sum::<f64>() / row_p.len() as f64;
+        let mean_q = row_q.iter().map(|&v| f64::from(v)).sum::<f64>() / row_q.len() as f64;
+        let (mut cross, mut ss_p, mut ss_q) = (0.0, 0.0, 0.0);
+        for (&a, &b) in row_p.iter().zip(row_q.iter()) {
+            let (da, db) = (f64::from(a) - mean_p, f64::from(b) - mean_q);
+            cross += da * db;
+            ss_p += da * da;
+            ss_q += db * db;
+        }
+        let expected = cross / (ss_p * ss_q).sqrt();
+        assert!((f64::from(similarity.values[[p, q]]) - expected).abs() < 1e-6);
+        assert_eq!(similarity.values[[p, q]], similarity.values[[q, p]]);
+    }
+}

@@ -1,0 +1,3 @@
+//! Stage 6: are the communities real? For now: partition agreement (ARI, NMI, VI).
+
+// OWNER: communities helper.
