@@ -1,1 +1,734 @@
-//! Runs the stages in order from a [`crate::config::RunConfig`].
+//! Runs the stages in order from a [`RunConfig`]: the first file to read to see how strata works.
+//!
+//! ```text
+//! read_participants -> discover_inputs -> build_features -> pearson -> detect -> compare -> write
+//! ```
+//! Each stage is timed; the outputs are written into a staging folder that is moved into place
+//! only when everything succeeded ([`OutputFolder`]).
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+use rayon::prelude::*;
+use serde_json::json;
+
+use crate::communities::{self, CommunityOptions, CommunityResult};
+use crate::config::{ConfigError, RunConfig, Values};
+use crate::error::Error;
+use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale};
+use crate::maps::{self, MapName, Statistic, WriteError};
+use crate::read::{self, Cohort, InputOptions};
+use crate::report::{
+    file_sha256, format_number, utc_timestamp, CommunitySummary, ComparisonSummary, InputDigest, Log, OutputFolder,
+    Provenance, RunSummary, Table, Warning,
+};
+use crate::similarity::{self, SimilarityMatrix};
+use crate::stats;
+
+/// BIDS version whose derivative rules the output folder follows.
+pub const BIDS_VERSION: &str = "1.11.1";
+
+/// The value BIDS uses for a missing table cell.
+const MISSING: &str = "n/a";
+
+/// Stage timings, in pipeline order.
+#[derive(Debug, Default)]
+struct Timings {
+    stages: Vec<(String, f64)>,
+}
+
+impl Timings {
+    fn time<T>(&mut self, log: &Log, stage: &str, work: impl FnOnce() -> T) -> T {
+        let started = Instant::now();
+        let result = work();
+        let seconds = started.elapsed().as_secs_f64();
+        log.detail(&format!("{stage}: {seconds:.2} s"));
+        self.stages.push((stage.to_string(), seconds));
+        result
+    }
+}
+
+/// Group labels of the analysed participants, with the levels in order of first appearance.
+#[derive(Debug)]
+struct Groups {
+    /// Level of each participant (cohort order); `None` when missing.
+    labels: Vec<Option<String>>,
+    /// Levels present, in order of first appearance.
+    levels: Vec<String>,
+}
+
+impl Groups {
+    fn rows_of(&self, level: &str, within: &[usize]) -> Vec<usize> {
+        within.iter().copied().filter(|&row| self.labels[row].as_deref() == Some(level)).collect()
+    }
+
+    fn counts(&self, within: &[usize]) -> Vec<(String, usize)> {
+        let mut counts: Vec<(String, usize)> =
+            self.levels.iter().map(|level| (level.clone(), self.rows_of(level, within).len())).collect();
+        let missing = within.iter().filter(|&&row| self.labels[row].is_none()).count();
+        if missing > 0 {
+            counts.push((MISSING.to_string(), missing));
+        }
+        counts
+    }
+}
+
+fn group_labels(config: &RunConfig, cohort: &Cohort) -> Result<Groups, Error> {
+    let table = &cohort.table;
+    let column = table.column(&config.group_column).ok_or_else(|| ConfigError::Invalid {
+        flag: "--group-column".into(),
+        message: format!(
+            "{}: no column '{}'; the table has: {}",
+            table.path().display(),
+            config.group_column,
+            table.columns().join(", ")
+        ),
+    })?;
+    let labels: Vec<Option<String>> = column
+        .iter()
+        .map(|value| {
+            let value = value.trim();
+            (!value.is_empty() && value != MISSING).then(|| value.to_string())
+        })
+        .collect();
+    let mut levels: Vec<String> = Vec::new();
+    for label in labels.iter().flatten() {
+        if !levels.contains(label) {
+            levels.push(label.clone());
+        }
+    }
+    let (a, b) = &config.contrast;
+    for level in [a, b] {
+        if !levels.contains(level) {
+            return Err(ConfigError::Invalid {
+                flag: "--contrast".into(),
+                message: format!(
+                    "{}: level '{level}' does not occur in column '{}' of the analysed participants; levels found: {}",
+                    table.path().display(),
+                    config.group_column,
+                    if levels.is_empty() { "none".to_string() } else { levels.join(", ") }
+                ),
+            }
+            .into());
+        }
+    }
+    Ok(Groups { labels, levels })
+}
+
+/// Region names from an atlas table (TSV with `index` and `name` columns, rows in matrix order).
+fn read_atlas_names(path: &Path) -> Result<Vec<String>, Error> {
+    let table = read::read_table(path)?;
+    let names = table.column("name").ok_or_else(|| ConfigError::Invalid {
+        flag: "--atlas".into(),
+        message: format!(
+            "{}: no 'name' column; an atlas table needs columns index and name (found: {})",
+            path.display(),
+            table.columns().join(", ")
+        ),
+    })?;
+    Ok(names.iter().map(|name| name.to_string()).collect())
+}
+
+/// Runs the whole analysis and writes its outputs into `config.out`.
+///
+/// # Errors
+/// Any stage's error; nothing is left in `config.out` unless the run succeeded.
+pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
+    let started = Instant::now();
+    let started_utc = utc_timestamp();
+    let mut timings = Timings::default();
+    let output = OutputFolder::prepare(&config.out, config.force)?;
+
+    let (cohort, groups) = timings.time(log, "read", || -> Result<_, Error> {
+        let table = read::read_participants(&config.participants)?;
+        let options = InputOptions { patterns: config.inputs.clone(), match_column: config.match_column.clone() };
+        let cohort = read::discover_inputs(&options, &table)?;
+        let groups = group_labels(config, &cohort)?;
+        Ok((cohort, groups))
+    })?;
+    log.note(&format!("{} participants matched to {} input file(s)", cohort.participant_ids.len(), cohort.sources.len()));
+
+    let region_names = config.atlas.as_deref().map(read_atlas_names).transpose()?;
+    let features = timings.time(log, "features", || {
+        let options = FeatureOptions {
+            mask: config.mask.clone(),
+            values: match config.values {
+                Values::R => ValueScale::Correlation,
+                Values::Z => ValueScale::FisherZ,
+            },
+            region_names,
+        };
+        features::build_features(&cohort, &options)
+    })?;
+    log.note(&format!(
+        "{} features per participant; computing participant similarity",
+        features.matrix.feature_count()
+    ));
+
+    let similarity = timings.time(log, "similarity", || similarity::pearson(&features.matrix));
+    log.note(&format!("community detection over {} densities", config.densities.len()));
+    let communities = timings.time(log, "communities", || {
+        communities::detect(
+            &similarity,
+            &CommunityOptions {
+                densities: config.densities.clone(),
+                trials: config.trials,
+                resolution: config.resolution,
+                min_community_size: config.min_community_size,
+                consensus_threshold: config.consensus_threshold,
+                seed: config.seed,
+            },
+        )
+    })?;
+
+    let mut warnings = Vec::new();
+    collect_community_warnings(&cohort, &communities, config, &mut warnings);
+    let missing: Vec<String> = groups
+        .labels
+        .iter()
+        .zip(&cohort.participant_ids)
+        .filter(|(label, _)| label.is_none())
+        .map(|(_, id)| id.clone())
+        .collect();
+    if !missing.is_empty() {
+        warnings.push(Warning::MissingGroupLabel { column: config.group_column.clone(), participants: missing });
+    }
+
+    log.note("group comparisons and maps");
+    let maps_dir = output.subdir("maps")?;
+    let comparisons = timings.time(log, "compare", || {
+        compare_and_write(config, &features, &groups, &communities, &maps_dir, &mut warnings)
+    })?;
+
+    timings.time(log, "write", || {
+        write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity)
+    })?;
+    for warning in &warnings {
+        log.warn(warning);
+    }
+
+    let summary = build_summary(config, &cohort, &features, &groups, &communities, comparisons, warnings, started);
+    let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
+    let provenance = Provenance {
+        strata_version: crate::VERSION.to_string(),
+        command: std::env::args().collect(),
+        started_utc,
+        threads: rayon::current_num_threads(),
+        seed: config.seed,
+        parameters: serde_json::to_value(config).unwrap_or(serde_json::Value::Null),
+        inputs: digests,
+        stage_seconds: timings.stages,
+    };
+    write_json(&output.path().join("provenance.json"), &provenance)?;
+    write_json(&output.path().join("summary.json"), &summary)?;
+    write_json(&output.path().join("dataset_description.json"), &dataset_description())?;
+    output.commit()?;
+    Ok(summary)
+}
+
+fn collect_community_warnings(
+    cohort: &Cohort,
+    communities: &CommunityResult,
+    config: &RunConfig,
+    warnings: &mut Vec<Warning>,
+) {
+    let ids = &cohort.participant_ids;
+    if let Some(sparsest) =
+        communities.densities.iter().filter(|density| density.consensus_weight > 0.0 && !density.isolated.is_empty()).next()
+    {
+        warnings.push(Warning::IsolatedParticipants {
+            density: sparsest.density,
+            participants: sparsest.isolated.iter().map(|&row| ids[row].clone()).collect(),
+        });
+    }
+    let unassigned: Vec<String> = communities
+        .partition
+        .membership
+        .iter()
+        .zip(ids)
+        .filter(|(&community, _)| community == 0)
+        .map(|(_, id)| id.clone())
+        .collect();
+    if !unassigned.is_empty() {
+        warnings.push(Warning::Unassigned { min_size: config.min_community_size, participants: unassigned });
+    }
+    if communities.partition.community_count() <= 1 {
+        warnings.push(Warning::SingleCommunity);
+    }
+}
+
+/// The scopes of the comparisons: the whole cohort, then each community.
+fn scopes(communities: &CommunityResult) -> Vec<(String, Vec<usize>)> {
+    let membership = &communities.partition.membership;
+    let mut scopes = vec![("all".to_string(), (0..membership.len()).collect::<Vec<_>>())];
+    for community in 1..=communities.partition.community_count() {
+        let rows = membership.iter().enumerate().filter(|(_, &c)| c == community).map(|(row, _)| row).collect();
+        scopes.push((community.to_string(), rows));
+    }
+    scopes
+}
+
+fn compare_and_write(
+    config: &RunConfig,
+    features: &Features,
+    groups: &Groups,
+    communities: &CommunityResult,
+    maps_dir: &Path,
+    warnings: &mut Vec<Warning>,
+) -> Result<Vec<ComparisonSummary>, Error> {
+    let (level_a, level_b) = &config.contrast;
+    let contrast = maps::contrast_label(level_a, level_b);
+    let space = &features.space;
+    let matrix = &features.matrix;
+    let mut summaries = Vec::new();
+    for (scope, rows) in scopes(communities) {
+        let scope_words = if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
+        let base_sidecar = json!({
+            "Community": if scope == "all" { json!("all") } else { json!(scope.parse::<usize>().unwrap_or(0)) },
+            "CommunitySize": rows.len(),
+            "GroupColumn": config.group_column,
+        });
+        // Means: pooled, then one per group level with at least one participant in scope.
+        let pooled = stats::group_mean(matrix, &rows);
+        let name = MapName::new().entity("comm", &scope).suffix("mean");
+        maps::write_map(maps_dir, space, &name, Statistic::Mean, &pooled, &with(&base_sidecar, json!({
+            "Description": format!("Mean Fisher z over all participants of the {scope_words}"),
+            "Participants": rows.len(),
+        })), None)?;
+        for level in &groups.levels {
+            let level_rows = groups.rows_of(level, &rows);
+            if level_rows.is_empty() {
+                continue;
+            }
+            let mean = stats::group_mean(matrix, &level_rows);
+            let name = MapName::new().entity("comm", &scope).entity("group", &maps::sanitise_label(level)).suffix("mean");
+            maps::write_map(maps_dir, space, &name, Statistic::Mean, &mean, &with(&base_sidecar, json!({
+                "Description": format!("Mean Fisher z of the {level} participants of the {scope_words}"),
+                "Group": level,
+                "Participants": level_rows.len(),
+            })), None)?;
+        }
+        let rows_a = groups.rows_of(level_a, &rows);
+        let rows_b = groups.rows_of(level_b, &rows);
+        if rows_a.len() < 2 || rows_b.len() < 2 {
+            let reason = format!(
+                "fewer than 2 participants in a level ({level_a}: {}, {level_b}: {})",
+                rows_a.len(),
+                rows_b.len()
+            );
+            warnings.push(Warning::ContrastSkipped { scope: scope_words.clone(), reason: reason.clone() });
+            summaries.push(ComparisonSummary {
+                scope,
+                count_a: rows_a.len(),
+                count_b: rows_b.len(),
+                written: false,
+                reason: Some(reason),
+                significant_features: 0,
+                max_abs_t: f64::NAN,
+                peak: String::new(),
+                peak_t: f64::NAN,
+            });
+            continue;
+        }
+        let comparison = stats::welch_comparison(matrix, &rows_a, &rows_b).map_err(|error| ConfigError::Invalid {
+            flag: "--contrast".into(),
+            message: format!("{scope_words}: {error}"),
+        })?;
+        let contrast_sidecar = with(&base_sidecar, json!({
+            "Contrast": format!("{level_a} - {level_b}"),
+            "Groups": { level_a.as_str(): rows_a.len(), level_b.as_str(): rows_b.len() },
+            "Test": "Welch two-sample t test (unequal variances), two-sided",
+        }));
+        let uniform_dof = uniform(&comparison.dof);
+        let outputs: [(Statistic, Vec<f32>, &str); 6] = [
+            (Statistic::Difference, comparison.difference.clone(), "Mean Fisher z difference A - B"),
+            (Statistic::T, comparison.t.clone(), "Welch t statistic of A - B"),
+            (Statistic::Dof, comparison.dof.clone(), "Welch-Satterthwaite degrees of freedom"),
+            (Statistic::P, comparison.p.iter().map(|&p| p as f32).collect(), "Two-sided uncorrected p of the Welch t test"),
+            (Statistic::Q, comparison.q.iter().map(|&q| q as f32).collect(), "Benjamini-Hochberg q across all features of this map"),
+            (Statistic::HedgesG, comparison.hedges_g.clone(), "Hedges g (bias-corrected standardised mean difference)"),
+        ];
+        for (statistic, values, description) in outputs {
+            let name = MapName::new().entity("comm", &scope).entity("contrast", &contrast).suffix(statistic.suffix());
+            let t_dof = if statistic == Statistic::T { uniform_dof } else { None };
+            maps::write_map(maps_dir, space, &name, statistic, &values, &with(&contrast_sidecar, json!({
+                "Description": format!("{description}, {scope_words}"),
+            })), t_dof)?;
+        }
+        let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
+        let (peak_index, peak_t) = comparison
+            .t
+            .iter()
+            .enumerate()
+            .filter(|(_, t)| t.is_finite())
+            .max_by(|(ia, a), (ib, b)| a.abs().total_cmp(&b.abs()).then(ib.cmp(ia)))
+            .map(|(index, &t)| (index, f64::from(t)))
+            .unwrap_or((0, f64::NAN));
+        summaries.push(ComparisonSummary {
+            scope,
+            count_a: rows_a.len(),
+            count_b: rows_b.len(),
+            written: true,
+            reason: None,
+            significant_features: significant,
+            max_abs_t: peak_t.abs(),
+            peak: describe_feature(space, peak_index),
+            peak_t,
+        });
+    }
+    Ok(summaries)
+}
+
+/// Merges two JSON objects (the second wins).
+fn with(base: &serde_json::Value, extra: serde_json::Value) -> serde_json::Value {
+    let mut merged = base.clone();
+    if let (Some(target), serde_json::Value::Object(source)) = (merged.as_object_mut(), extra) {
+        target.extend(source);
+    }
+    merged
+}
+
+/// The common value when all values agree (within f32 rounding), else None.
+fn uniform(values: &[f32]) -> Option<f64> {
+    let first = *values.first()?;
+    values.iter().all(|&value| (value - first).abs() <= 1e-4 * first.abs().max(1.0)).then_some(f64::from(first))
+}
+
+/// A feature's location in words: mm coordinates for voxels, region names for edges.
+pub fn describe_feature(space: &FeatureSpace, index: usize) -> String {
+    match space {
+        FeatureSpace::Voxels(voxels) => {
+            let Some(&flat) = voxels.mask.get(index) else { return String::new() };
+            let [nx, ny, _] = voxels.dim;
+            let ijk = [flat % nx, (flat / nx) % ny, flat / (nx * ny)];
+            let a = &voxels.affine;
+            let mm: Vec<String> = (0..3)
+                .map(|row| {
+                    let value = a[row][0] * ijk[0] as f64 + a[row][1] * ijk[1] as f64 + a[row][2] * ijk[2] as f64 + a[row][3];
+                    format!("{value:.0}")
+                })
+                .collect();
+            format!("({}) mm, voxel ({}, {}, {})", mm.join(", "), ijk[0], ijk[1], ijk[2])
+        }
+        FeatureSpace::Edges(edges) => {
+            if index >= space.feature_count() {
+                return String::new();
+            }
+            let (i, j) = edges.edge(index);
+            format!("{} - {}", edges.region_names[i], edges.region_names[j])
+        }
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn build_summary(
+    config: &RunConfig,
+    cohort: &Cohort,
+    features: &Features,
+    groups: &Groups,
+    communities: &CommunityResult,
+    comparisons: Vec<ComparisonSummary>,
+    warnings: Vec<Warning>,
+    started: Instant,
+) -> RunSummary {
+    let everyone: Vec<usize> = (0..cohort.participant_ids.len()).collect();
+    let mut community_rows: Vec<CommunitySummary> = scopes(communities)
+        .into_iter()
+        .skip(1)
+        .map(|(scope, rows)| CommunitySummary {
+            community: scope.parse().unwrap_or(0),
+            size: rows.len(),
+            group_counts: groups.counts(&rows),
+        })
+        .collect();
+    let unassigned: Vec<usize> =
+        communities.partition.membership.iter().enumerate().filter(|(_, &c)| c == 0).map(|(row, _)| row).collect();
+    if !unassigned.is_empty() {
+        community_rows.push(CommunitySummary { community: 0, size: unassigned.len(), group_counts: groups.counts(&unassigned) });
+    }
+    let feature_description = match &features.space {
+        FeatureSpace::Voxels(voxels) => format!(
+            "{} in-mask voxels of a {}x{}x{} grid",
+            voxels.mask.len(),
+            voxels.dim[0],
+            voxels.dim[1],
+            voxels.dim[2]
+        ),
+        FeatureSpace::Edges(edges) => {
+            format!("{} regions, {} edges", edges.region_count, features.space.feature_count())
+        }
+    };
+    RunSummary {
+        strata_version: crate::VERSION.to_string(),
+        output: config.out.clone(),
+        input_kind: match features.space {
+            FeatureSpace::Voxels(_) => "seed_maps".into(),
+            FeatureSpace::Edges(_) => "region_matrices".into(),
+        },
+        participant_count: cohort.participant_ids.len(),
+        feature_count: features.matrix.feature_count(),
+        feature_description,
+        group_column: config.group_column.clone(),
+        contrast: config.contrast.clone(),
+        group_counts: groups.counts(&everyone),
+        densities: config.densities.clone(),
+        densities_in_consensus: communities
+            .densities
+            .iter()
+            .filter(|density| density.consensus_weight > 0.0)
+            .map(|density| density.density)
+            .collect(),
+        community_count: communities.partition.community_count(),
+        communities: community_rows,
+        consensus_modularity: communities.consensus_modularity,
+        consensus_iterations: communities.consensus_iterations,
+        comparisons,
+        alpha: config.alpha,
+        warnings,
+        seconds: started.elapsed().as_secs_f64(),
+    }
+}
+
+fn write_tables(
+    config: &RunConfig,
+    output: &OutputFolder,
+    cohort: &Cohort,
+    groups: &Groups,
+    communities: &CommunityResult,
+    comparisons: &[ComparisonSummary],
+    similarity: &SimilarityMatrix,
+) -> Result<(), Error> {
+    let dir = output.path();
+    // participants.tsv: the analysed input rows plus the community.
+    let table = &cohort.table;
+    let mut columns: Vec<String> = table.columns().to_vec();
+    columns.push("community".into());
+    let mut participants = Table::new(columns);
+    for (row, community) in table.rows().iter().zip(&communities.partition.membership) {
+        let mut cells = row.clone();
+        cells.push(community.to_string());
+        participants.push(cells);
+    }
+    participants.write(&dir.join("participants.tsv"))?;
+
+    // communities.tsv: size and counts per group level.
+    let level_columns: Vec<String> = groups
+        .levels
+        .iter()
+        .map(|level| format!("n_{level}"))
+        .chain(std::iter::once(format!("n_{MISSING}")))
+        .collect();
+    let mut header = vec!["community".to_string(), "size".to_string()];
+    header.extend(level_columns);
+    let mut table = Table::new(header);
+    let mut scope_rows = scopes(communities).into_iter().skip(1).collect::<Vec<_>>();
+    let unassigned: Vec<usize> =
+        communities.partition.membership.iter().enumerate().filter(|(_, &c)| c == 0).map(|(row, _)| row).collect();
+    if !unassigned.is_empty() {
+        scope_rows.push(("0".to_string(), unassigned));
+    }
+    for (scope, rows) in scope_rows {
+        let mut cells = vec![scope, rows.len().to_string()];
+        for level in &groups.levels {
+            cells.push(groups.rows_of(level, &rows).len().to_string());
+        }
+        cells.push(rows.iter().filter(|&&row| groups.labels[row].is_none()).count().to_string());
+        table.push(cells);
+    }
+    table.write(&dir.join("communities.tsv"))?;
+
+    // sweep.tsv: per density.
+    let mut sweep =
+        Table::new(["density", "edges", "isolated", "communities", "modularity", "consensus_weight"]);
+    for density in &communities.densities {
+        sweep.push(vec![
+            format_number(density.density),
+            density.edge_count.to_string(),
+            density.isolated.len().to_string(),
+            density.community_count.to_string(),
+            format_number(density.modularity),
+            format_number(density.consensus_weight),
+        ]);
+    }
+    sweep.write(&dir.join("sweep.tsv"))?;
+
+    // comparisons.tsv: per scope.
+    let (a, b) = &config.contrast;
+    let mut table = Table::new([
+        "community".to_string(),
+        format!("n_{a}"),
+        format!("n_{b}"),
+        "maps_written".to_string(),
+        format!("features_q_below_{}", config.alpha),
+        "peak_t".to_string(),
+        "peak_location".to_string(),
+        "note".to_string(),
+    ]);
+    for comparison in comparisons {
+        table.push(vec![
+            comparison.scope.clone(),
+            comparison.count_a.to_string(),
+            comparison.count_b.to_string(),
+            if comparison.written { "yes" } else { "no" }.to_string(),
+            if comparison.written { comparison.significant_features.to_string() } else { MISSING.to_string() },
+            format_number(comparison.peak_t),
+            if comparison.peak.is_empty() { MISSING.to_string() } else { comparison.peak.clone() },
+            comparison.reason.clone().unwrap_or_else(|| MISSING.to_string()),
+        ]);
+    }
+    table.write(&dir.join("comparisons.tsv"))?;
+
+    write_npy(&dir.join("similarity.npy"), &similarity.values)?;
+    write_npy(&dir.join("coassignment.npy"), &communities.coassignment)?;
+    Ok(())
+}
+
+fn write_npy(path: &Path, values: &ndarray::Array2<f32>) -> Result<(), Error> {
+    ndarray_npy::write_npy(path, values)
+        .map_err(|error| WriteError::Encode { path: path.to_path_buf(), message: error.to_string() }.into())
+}
+
+fn write_json(path: &Path, value: &impl serde::Serialize) -> Result<(), Error> {
+    let text = serde_json::to_string_pretty(value)
+        .map_err(|error| WriteError::Encode { path: path.to_path_buf(), message: error.to_string() })?;
+    std::fs::write(path, text + "\n").map_err(|source| WriteError::Io { path: path.to_path_buf(), source }.into())
+}
+
+/// The BIDS derivative dataset description (BIDS v1.11.1: Name, BIDSVersion, DatasetType,
+/// GeneratedBy with Name and Version).
+pub fn dataset_description() -> serde_json::Value {
+    json!({
+        "Name": "strata participant subgroup analysis",
+        "BIDSVersion": BIDS_VERSION,
+        "DatasetType": "derivative",
+        "GeneratedBy": [{
+            "Name": "strata",
+            "Version": crate::VERSION,
+            "Description": std::env::args().collect::<Vec<_>>().join(" "),
+        }],
+    })
+}
+
+fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>, Error> {
+    let mut files: Vec<(String, PathBuf)> = vec![(String::new(), config.participants.clone())];
+    if let Some(mask) = &config.mask {
+        files.push((String::new(), mask.clone()));
+    }
+    if let Some(atlas) = &config.atlas {
+        files.push((String::new(), atlas.clone()));
+    }
+    let mut seen = BTreeMap::new();
+    for (id, source) in cohort.participant_ids.iter().zip(&cohort.sources) {
+        // A stacked .npy holds every participant: digest it once.
+        seen.entry(source.path.clone()).or_insert_with(|| if source.stack_index.is_some() { String::new() } else { id.clone() });
+    }
+    files.extend(seen.into_iter().map(|(path, id)| (id, path)));
+    files
+        .par_iter()
+        .map(|(id, path)| {
+            let (sha256, bytes) = file_sha256(path).map_err(|source| WriteError::Io { path: path.clone(), source })?;
+            Ok(InputDigest { participant_id: id.clone(), path: path.display().to_string(), bytes, sha256 })
+        })
+        .collect()
+}
+
+/// Generates the fictional Northfield cohort and runs the whole analysis on it.
+///
+/// Writes `inputs-matrices/`, `results-matrices/`, `inputs-seedmaps/` and `results-seedmaps/`
+/// (as chosen by `options.kind`) into `options.out`, and returns the text to print: where the
+/// results are and how well the planted subgroups were recovered (adjusted Rand index).
+pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String, Error> {
+    use crate::cli::args::DemoKind;
+    use crate::demo::Scenario;
+    let started = Instant::now();
+    // The demo folder itself is not staged: each cohort and each result inside it is written
+    // whole (staged and renamed), so the paths recorded in the results are the final ones.
+    if options.out.is_dir() && std::fs::read_dir(&options.out).map(|mut e| e.next().is_some()).unwrap_or(false) {
+        if !options.force {
+            return Err(WriteError::Exists { path: options.out.clone() }.into());
+        }
+        std::fs::remove_dir_all(&options.out).map_err(|source| WriteError::Io { path: options.out.clone(), source })?;
+    }
+    std::fs::create_dir_all(&options.out).map_err(|source| WriteError::Io { path: options.out.clone(), source })?;
+    let mut scenario = match &options.scenario {
+        Some(path) => Scenario::from_toml_file(path)?,
+        None => Scenario::default(),
+    };
+    if let Some(seed) = options.seed {
+        scenario.seed = seed;
+    }
+    let mut text = String::new();
+    let kinds: Vec<&str> = match options.kind {
+        DemoKind::Matrices => vec!["matrices"],
+        DemoKind::Maps => vec!["seedmaps"],
+        DemoKind::Both => vec!["matrices", "seedmaps"],
+    };
+    for kind in kinds {
+        let inputs_dir = options.out.join(format!("inputs-{kind}"));
+        log.note(&format!("generating the Northfield demo cohort ({kind}) in {}", inputs_dir.display()));
+        let staged_inputs = OutputFolder::prepare(&inputs_dir, false)?;
+        let staged = if kind == "matrices" {
+            crate::demo::write_matrix_cohort(&scenario, staged_inputs.path())?
+        } else {
+            crate::demo::write_seedmap_cohort(&scenario, staged_inputs.path())?
+        };
+        staged_inputs.commit()?;
+        let cohort = crate::demo::DemoCohort::open(&inputs_dir, &staged)?;
+        let results_dir = options.out.join(format!("results-{kind}"));
+        let config = RunConfig {
+            inputs: vec![cohort.inputs_glob.clone()],
+            participants: cohort.participants_tsv.clone(),
+            match_column: None,
+            group_column: "diagnosis".into(),
+            contrast: ("insomnia".into(), "control".into()),
+            out: results_dir,
+            force: false,
+            mask: None,
+            values: Values::R,
+            atlas: cohort.atlas_table.clone(),
+            densities: crate::config::DEFAULT_DENSITIES.to_vec(),
+            trials: crate::config::DEFAULT_TRIALS,
+            resolution: crate::config::DEFAULT_RESOLUTION,
+            min_community_size: crate::config::DEFAULT_MIN_COMMUNITY_SIZE,
+            consensus_threshold: crate::config::DEFAULT_CONSENSUS_THRESHOLD,
+            alpha: crate::config::DEFAULT_ALPHA,
+            seed: scenario.seed,
+            threads: 0,
+        };
+        let summary = run(&config, log)?;
+        let found = read_communities(&config.out.join("participants.tsv"))?;
+        let ari = crate::validation::adjusted_rand_index(&cohort.truth, &found);
+        let final_dir = &config.out;
+        let _ = std::fmt::Write::write_fmt(
+            &mut text,
+            format_args!(
+                "Demo ({kind}): {} participants, {} planted subgroups; strata found {} communities; \
+                 adjusted Rand index with the planted subgroups: {ari:.3}.\n  results: {}\n",
+                summary.participant_count,
+                cohort.truth.iter().copied().max().unwrap_or(0),
+                summary.community_count,
+                final_dir.display()
+            ),
+        );
+    }
+    let final_dir = &options.out;
+    let _ = std::fmt::Write::write_fmt(
+        &mut text,
+        format_args!(
+            "Demo finished in {:.1} s; inputs and results in {}.\n\
+             The Northfield cohort is fictional, generated by strata. strata is research software: \
+             subgroups and maps are not diagnoses and not for individual clinical decisions.\n",
+            started.elapsed().as_secs_f64(),
+            final_dir.display()
+        ),
+    );
+    Ok(text)
+}
+
+/// The `community` column of a written participants.tsv (demo use).
+fn read_communities(path: &Path) -> Result<Vec<usize>, Error> {
+    let table = read::read_table(path)?;
+    let column = table.column("community").unwrap_or_default();
+    Ok(column.iter().map(|value| value.parse().unwrap_or(0)).collect())
+}

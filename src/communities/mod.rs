@@ -4,8 +4,13 @@
 //! across the density sweep (Lancichinetti & Fortunato 2012). Infomap and Leiden will sit beside
 //! Louvain as further methods.
 
-// OWNER: communities helper. Keep the public names below; add modules (louvain.rs, quality.rs,
-// consensus.rs, ...) as the work needs.
+mod consensus;
+mod louvain;
+mod quality;
+
+pub use consensus::{coassignment, detect, DENSITY_MODULARITY_FLOOR};
+pub use louvain::{louvain, renumber};
+pub use quality::modularity;
 
 use ndarray::Array2;
 
@@ -18,6 +23,37 @@ use ndarray::Array2;
 pub struct Partition {
     /// Community of each participant, in cohort order; 0 = unassigned.
     pub membership: Vec<usize>,
+}
+
+impl Partition {
+    /// Builds the partition from raw labels: communities smaller than `min_size` become 0, the
+    /// others are numbered 1..=k by decreasing size (ties by smallest member index).
+    pub fn from_labels(labels: &[usize], min_size: usize) -> Self {
+        let (labels, count) = renumber(labels);
+        let mut sizes = vec![0usize; count];
+        let mut first = vec![usize::MAX; count];
+        for (index, &label) in labels.iter().enumerate() {
+            sizes[label] += 1;
+            first[label] = first[label].min(index);
+        }
+        let mut order: Vec<usize> = (0..count).filter(|&label| sizes[label] >= min_size).collect();
+        order.sort_by(|&a, &b| sizes[b].cmp(&sizes[a]).then(first[a].cmp(&first[b])));
+        let mut number = vec![0usize; count];
+        for (rank, &label) in order.iter().enumerate() {
+            number[label] = rank + 1;
+        }
+        Partition { membership: labels.iter().map(|&label| number[label]).collect() }
+    }
+
+    /// Number of communities (excluding unassigned).
+    pub fn community_count(&self) -> usize {
+        self.membership.iter().copied().max().unwrap_or(0)
+    }
+
+    /// Size of community `community` (0 = unassigned).
+    pub fn size(&self, community: usize) -> usize {
+        self.membership.iter().filter(|&&c| c == community).count()
+    }
 }
 
 /// Tunables of community detection (defaults live in `crate::config`).

@@ -5,8 +5,13 @@
 //! near |r| = 1. Values are decoded in parallel straight into their participant's row.
 //! Similarity is the next stage's job.
 
-// OWNER: read helper. Public interface used by the pipeline (keep these names):
-//   build_features(&Cohort, &FeatureOptions) -> Result<Features, FeatureError>
+mod build;
+mod error;
+mod fisher;
+
+pub use build::{build_features, FeatureOptions, FeatureSummary, Features, ValueScale};
+pub use error::FeatureError;
+pub use fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 
 use ndarray::Array2;
 
@@ -94,17 +99,3 @@ impl FeatureSpace {
     }
 }
 
-/// The inputs read but cannot form a valid feature matrix.
-#[derive(Debug, thiserror::Error)]
-pub enum FeatureError {
-    /// A participant's values are constant, so its similarity to anyone is undefined.
-    #[error("{path}: participant {participant}: all {feature_count} features have the same value; check the file is the right one (a blank map or matrix cannot be compared)")]
-    ConstantParticipant {
-        /// The participant's file.
-        path: std::path::PathBuf,
-        /// The participant.
-        participant: String,
-        /// Number of features.
-        feature_count: usize,
-    },
-}

@@ -1,0 +1,216 @@
+//! The density sweep and the consensus partition across it.
+//!
+//! # The rule (documented in docs/methods.md)
+//! Dense participant graphs often collapse to one community, and a plain co-assignment
+//! consensus over a wide sweep is then dominated by those collapsed densities. strata therefore
+//! weights each density by the modularity of its best partition and leaves a density out when
+//! its partition shows no structure: fewer than two communities of at least the minimum size,
+//! or modularity below [`DENSITY_MODULARITY_FLOOR`]. Every Louvain trial of an included density
+//! enters the co-assignment matrix with weight Q_d / trials. The Lancichinetti-Fortunato
+//! iteration then runs on that matrix. When no density has structure, the consensus is one
+//! community: the honest answer that no subgroups were found.
+
+use ndarray::Array2;
+use rayon::prelude::*;
+
+use super::louvain::{louvain, renumber};
+use super::quality::modularity;
+use super::{CommunityError, CommunityOptions, CommunityResult, DensityResult, Partition};
+use crate::graph::{ParticipantGraph, RankedPairs};
+use crate::similarity::SimilarityMatrix;
+
+/// A density enters the consensus only if its best partition reaches this modularity.
+/// 0.05 is well below the modularity of any partition with real structure on these graphs and
+/// above the near-zero values of collapsed (one-community) partitions (common practice sets a
+/// floor near zero; this value is strata's choice, see docs/methods.md).
+pub const DENSITY_MODULARITY_FLOOR: f64 = 0.05;
+
+/// Louvain trials per consensus iteration on the co-assignment graph.
+pub const CONSENSUS_TRIALS: usize = 10;
+
+/// The consensus iteration stops after this many rounds even if the partitions still disagree
+/// (Lancichinetti & Fortunato 2012 report convergence within a few rounds).
+pub const MAX_CONSENSUS_ITERATIONS: usize = 50;
+
+/// Weighted co-assignment: entry (p, q) is the weighted fraction of partitions placing p and q
+/// together (the diagonal is 1).
+///
+/// # Complexity
+/// O(U n^2) for U distinct partitions.
+pub fn coassignment(partitions: &[(Vec<usize>, f64)], node_count: usize) -> Array2<f32> {
+    // Identical partitions (frequent among trials) are merged first.
+    let mut distinct: Vec<(Vec<usize>, f64)> = Vec::new();
+    for (labels, weight) in partitions {
+        let canonical = renumber(labels).0;
+        match distinct.iter_mut().find(|(existing, _)| *existing == canonical) {
+            Some(entry) => entry.1 += weight,
+            None => distinct.push((canonical, *weight)),
+        }
+    }
+    let total: f64 = distinct.iter().map(|(_, weight)| weight).sum();
+    let mut matrix = Array2::<f32>::zeros((node_count, node_count));
+    if total <= 0.0 {
+        return matrix;
+    }
+    let rows: Vec<Vec<f32>> = (0..node_count)
+        .into_par_iter()
+        .map(|p| {
+            let mut row = vec![0.0f64; node_count];
+            for (labels, weight) in &distinct {
+                let label = labels[p];
+                for (q, &other) in labels.iter().enumerate() {
+                    if other == label {
+                        row[q] += weight;
+                    }
+                }
+            }
+            row.into_iter().map(|value| (value / total) as f32).collect()
+        })
+        .collect();
+    for (p, row) in rows.into_iter().enumerate() {
+        matrix.row_mut(p).assign(&ndarray::Array1::from(row));
+    }
+    matrix
+}
+
+/// Seeded trials of Louvain; returns every trial's labels and modularity, in trial order.
+fn trials(graph: &ParticipantGraph, resolution: f64, count: usize, seed: u64, stage: &str, index: u64) -> Vec<(Vec<usize>, f64)> {
+    (0..count as u64)
+        .into_par_iter()
+        .map(|trial| {
+            let mut rng = crate::seed::rng(seed, stage, &[index, trial]);
+            let labels = louvain(graph, resolution, &mut rng);
+            let quality = modularity(graph, &labels, resolution);
+            (labels, quality)
+        })
+        .collect()
+}
+
+/// The trial of highest modularity (the earliest among equals).
+fn best(results: &[(Vec<usize>, f64)]) -> usize {
+    let mut best = 0;
+    for (index, (_, quality)) in results.iter().enumerate() {
+        if *quality > results[best].1 + 1e-12 {
+            best = index;
+        }
+    }
+    best
+}
+
+fn graph_from_coassignment(matrix: &Array2<f32>, threshold: f64) -> ParticipantGraph {
+    let n = matrix.nrows();
+    let mut edges = Vec::new();
+    for p in 0..n {
+        for q in (p + 1)..n {
+            let value = f64::from(matrix[[p, q]]);
+            if value >= threshold {
+                edges.push((p, q, value));
+            }
+        }
+    }
+    ParticipantGraph::from_edges(n, &edges)
+}
+
+fn structured(labels: &[usize], min_size: usize) -> bool {
+    let (labels, count) = renumber(labels);
+    let mut sizes = vec![0usize; count];
+    for label in labels {
+        sizes[label] += 1;
+    }
+    sizes.iter().filter(|&&size| size >= min_size).count() >= 2
+}
+
+/// Community detection over the density sweep, then the consensus partition.
+///
+/// For each density (in parallel): the proportional-threshold graph and `trials` seeded Louvain
+/// runs, the best modularity kept. Densities are weighted and selected by the rule in this
+/// module's documentation; the weighted co-assignment matrix D of all their trials is
+/// thresholded at tau, partitioned by Louvain ([`CONSENSUS_TRIALS`] trials), and D is rebuilt
+/// from those partitions until they agree (Lancichinetti & Fortunato 2012).
+///
+/// # Errors
+/// [`CommunityError::NoEdges`] when no density keeps any edge (no positive similarity).
+///
+/// # Complexity
+/// O(D T E) for the sweep (D densities, T trials, E edges) plus O(I n^2) for the consensus.
+///
+/// # References
+/// Blondel et al. 2008 (Louvain); Lancichinetti & Fortunato 2012, Sci Rep 2:336 (consensus).
+pub fn detect(similarity: &SimilarityMatrix, options: &CommunityOptions) -> Result<CommunityResult, CommunityError> {
+    let node_count = similarity.participant_count();
+    let ranked = RankedPairs::new(similarity);
+    if ranked.positive_pairs() == 0 {
+        return Err(CommunityError::NoEdges);
+    }
+    let sweep: Vec<(DensityResult, Vec<(Vec<usize>, f64)>)> = options
+        .densities
+        .par_iter()
+        .enumerate()
+        .map(|(index, &density)| {
+            let graph = ranked.graph_at(density);
+            let results = trials(&graph, options.resolution, options.trials, options.seed, "sweep", index as u64);
+            let chosen = best(&results);
+            let (labels, quality) = results[chosen].clone();
+            let community_count = renumber(&labels).1;
+            let has_structure = structured(&labels, options.min_community_size) && quality >= DENSITY_MODULARITY_FLOOR;
+            let row = DensityResult {
+                density,
+                edge_count: graph.edge_count(),
+                isolated: graph.isolated(),
+                community_count,
+                modularity: quality,
+                consensus_weight: if has_structure { quality } else { 0.0 },
+                membership: labels,
+            };
+            (row, results)
+        })
+        .collect();
+    if sweep.iter().all(|(row, _)| row.edge_count == 0) {
+        return Err(CommunityError::NoEdges);
+    }
+    let mut weighted: Vec<(Vec<usize>, f64)> = Vec::new();
+    for (row, results) in &sweep {
+        if row.consensus_weight > 0.0 {
+            let share = row.consensus_weight / results.len() as f64;
+            weighted.extend(results.iter().map(|(labels, _)| (labels.clone(), share)));
+        }
+    }
+    let densities: Vec<DensityResult> = sweep.into_iter().map(|(row, _)| row).collect();
+    if weighted.is_empty() {
+        let everyone = vec![0usize; node_count];
+        return Ok(CommunityResult {
+            partition: Partition::from_labels(&everyone, 1),
+            densities,
+            coassignment: Array2::from_elem((node_count, node_count), 1.0),
+            consensus_iterations: 0,
+            consensus_modularity: 0.0,
+        });
+    }
+    let initial = coassignment(&weighted, node_count);
+    let mut matrix = initial.clone();
+    let mut iterations = 0;
+    let mut labels = vec![0usize; node_count];
+    while iterations < MAX_CONSENSUS_ITERATIONS {
+        iterations += 1;
+        let graph = graph_from_coassignment(&matrix, options.consensus_threshold);
+        let results =
+            trials(&graph, options.resolution, CONSENSUS_TRIALS, options.seed, "consensus", iterations as u64);
+        labels = results[best(&results)].0.clone();
+        let first = renumber(&results[0].0).0;
+        let unanimous = results.iter().all(|(other, _)| renumber(other).0 == first);
+        if unanimous {
+            break;
+        }
+        let equal: Vec<(Vec<usize>, f64)> = results.into_iter().map(|(labels, _)| (labels, 1.0)).collect();
+        matrix = coassignment(&equal, node_count);
+    }
+    let consensus_graph = graph_from_coassignment(&initial, options.consensus_threshold);
+    let consensus_modularity = modularity(&consensus_graph, &renumber(&labels).0, options.resolution);
+    Ok(CommunityResult {
+        partition: Partition::from_labels(&labels, options.min_community_size),
+        densities,
+        coassignment: initial,
+        consensus_iterations: iterations,
+        consensus_modularity,
+    })
+}

@@ -1,0 +1,419 @@
+//! Decoding every participant straight into its row of the feature matrix.
+
+use std::path::{Path, PathBuf};
+
+use ndarray::Array2;
+use rayon::prelude::*;
+use serde::Serialize;
+
+use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
+use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
+use crate::read::matrix::{read_matrix, read_stack};
+use crate::read::nifti::{affines_match, format_affine, read_volume, Volume};
+use crate::read::{Cohort, InputKind};
+
+/// Off-diagonal entries (i, j) and (j, i) of a matrix are taken as equal within this relative
+/// tolerance (float32 rounding of a symmetric product; common practice).
+pub const SYMMETRY_TOLERANCE: f64 = 1e-5;
+
+/// How input values are scaled.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ValueScale {
+    /// Correlations r: checked to lie in [-1, 1], then Fisher z transformed.
+    Correlation,
+    /// Already Fisher z: used as they are.
+    FisherZ,
+}
+
+/// Options of the features stage.
+#[derive(Debug, Clone)]
+pub struct FeatureOptions {
+    /// A mask volume (non-zero voxels kept); None: voxels finite and non-zero in every participant.
+    pub mask: Option<PathBuf>,
+    /// How input values are scaled.
+    pub values: ValueScale,
+    /// Region names for matrices, with the atlas table they came from.
+    pub region_names: Option<(PathBuf, Vec<String>)>,
+}
+
+/// What the features stage did, for the summary and provenance.
+#[derive(Debug, Clone, Serialize)]
+pub struct FeatureSummary {
+    /// Participants (rows).
+    pub participants: usize,
+    /// Features per participant.
+    pub features: usize,
+    /// Voxels of the grid outside the analysis mask (seed maps only).
+    pub voxels_outside_mask: usize,
+    /// Voxels of the candidate mask dropped because some participant had NaN, Inf or 0 there.
+    pub voxels_dropped: usize,
+    /// Values with |r| clipped at 1 - FISHER_Z_CLIP before the transform.
+    pub clipped_values: usize,
+    /// The clip epsilon used.
+    pub fisher_z_clip: f64,
+}
+
+/// The feature matrix, its space and a summary.
+#[derive(Debug, Clone)]
+pub struct Features {
+    /// N x F values.
+    pub matrix: FeatureMatrix,
+    /// Where each feature came from.
+    pub space: FeatureSpace,
+    /// What was done.
+    pub summary: FeatureSummary,
+}
+
+/// Transforms one value; Err(problem) when a correlation is out of range.
+fn transform(value: f64, scale: ValueScale, clipped: &mut usize) -> Result<f32, String> {
+    match scale {
+        ValueScale::FisherZ => Ok(value as f32),
+        ValueScale::Correlation => {
+            if value.abs() > 1.0 + RANGE_TOLERANCE {
+                return Err(format!(
+                    "value {value} is outside [-1, 1], so it is not a correlation; if the inputs are already Fisher z, pass --values z"
+                ));
+            }
+            if value.abs() >= 1.0 - FISHER_Z_CLIP {
+                *clipped += 1;
+            }
+            Ok(fisher_z(value) as f32)
+        }
+    }
+}
+
+/// Reads every participant's input into the feature matrix.
+///
+/// Seed maps: the mask is the given mask, or the voxels finite and non-zero in every
+/// participant; values are stored only at the first participant's (or the mask's) candidate
+/// voxels and compacted in place, so memory stays near the size of the final matrix. Matrices:
+/// the upper triangle without the diagonal, in `triu_indices(R, 1)` order. Correlations are
+/// Fisher z transformed. Participants are decoded in parallel; when several are invalid, the
+/// first in cohort order is reported.
+///
+/// # Errors
+/// Any reader error; grids, affines or R that differ; NaN/Inf in a matrix or inside a given
+/// mask; correlations outside [-1, 1]; an empty mask; a constant participant.
+pub fn build_features(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, FeatureError> {
+    let features = match cohort.kind {
+        InputKind::SeedMaps => build_voxels(cohort, options)?,
+        InputKind::RegionMatrices => build_edges(cohort, options)?,
+    };
+    check_not_constant(cohort, &features.matrix)?;
+    Ok(features)
+}
+
+fn check_not_constant(cohort: &Cohort, matrix: &FeatureMatrix) -> Result<(), FeatureError> {
+    let width = matrix.feature_count().max(1);
+    let constant = matrix.row_major().par_chunks(width).position_first(|row| row.iter().all(|&value| value == row[0]));
+    if let Some(row) = constant {
+        return Err(FeatureError::ConstantParticipant {
+            path: cohort.sources[row].path.clone(),
+            participant: cohort.participant_ids[row].clone(),
+            feature_count: matrix.feature_count(),
+        });
+    }
+    Ok(())
+}
+
+fn voxel_ijk(flat: usize, dim: [usize; 3]) -> (usize, usize, usize) {
+    (flat % dim[0], (flat / dim[0]) % dim[1], flat / (dim[0] * dim[1]))
+}
+
+fn check_grid(volume: &Volume, reference: &Volume, path: &Path, participant: &str, first: &Path) -> Result<(), FeatureError> {
+    if volume.dim != reference.dim {
+        let show = |d: [usize; 3]| format!("{}x{}x{}", d[0], d[1], d[2]);
+        return Err(FeatureError::GridMismatch {
+            path: path.to_path_buf(),
+            participant: participant.to_string(),
+            what: "grid",
+            found: show(volume.dim),
+            expected: show(reference.dim),
+            first: first.to_path_buf(),
+        });
+    }
+    if !affines_match(&volume.affine, &reference.affine) {
+        return Err(FeatureError::GridMismatch {
+            path: path.to_path_buf(),
+            participant: participant.to_string(),
+            what: "affine",
+            found: format_affine(&volume.affine),
+            expected: format_affine(&reference.affine),
+            first: first.to_path_buf(),
+        });
+    }
+    Ok(())
+}
+
+fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, FeatureError> {
+    let first_path = &cohort.sources[0].path;
+    let first = read_volume(first_path, &cohort.participant_ids[0])?;
+    let grid_size = first.values.len();
+    let given_mask = match &options.mask {
+        Some(mask_path) => {
+            let mask = read_volume(mask_path, "(mask)")?;
+            if mask.dim != first.dim || !affines_match(&mask.affine, &first.affine) {
+                return Err(FeatureError::GridMismatch {
+                    path: mask_path.clone(),
+                    participant: "(mask)".into(),
+                    what: if mask.dim != first.dim { "grid" } else { "affine" },
+                    found: format!("{:?} {}", mask.dim, format_affine(&mask.affine)),
+                    expected: format!("{:?} {}", first.dim, format_affine(&first.affine)),
+                    first: first_path.clone(),
+                });
+            }
+            let voxels: Vec<usize> =
+                mask.values.iter().enumerate().filter(|(_, &v)| v != 0.0 && v.is_finite()).map(|(i, _)| i).collect();
+            if voxels.is_empty() {
+                return Err(FeatureError::EmptyMask {
+                    path: mask_path.clone(),
+                    problem: "the mask has no non-zero voxel; check it is the right file".into(),
+                });
+            }
+            Some(voxels)
+        }
+        None => None,
+    };
+    let candidates: Vec<usize> = match &given_mask {
+        Some(voxels) => voxels.clone(),
+        None => first.values.iter().enumerate().filter(|(_, &v)| v != 0.0 && v.is_finite()).map(|(i, _)| i).collect(),
+    };
+    if candidates.is_empty() {
+        return Err(FeatureError::EmptyMask {
+            path: first_path.clone(),
+            problem: format!(
+                "participant {} has no finite, non-zero voxel; check the map, or give --mask",
+                cohort.participant_ids[0]
+            ),
+        });
+    }
+    let participants = cohort.participant_ids.len();
+    let width = candidates.len();
+    let mut values = vec![0.0f32; participants * width];
+    let masked = given_mask.is_some();
+    let reference = &first;
+    let outcomes: Vec<Result<usize, FeatureError>> = values
+        .par_chunks_mut(width)
+        .enumerate()
+        .map(|(row, out)| {
+            let path = &cohort.sources[row].path;
+            let participant = &cohort.participant_ids[row];
+            let owned;
+            let volume = if row == 0 {
+                reference
+            } else {
+                owned = read_volume(path, participant)?;
+                check_grid(&owned, reference, path, participant, first_path)?;
+                &owned
+            };
+            let mut clipped = 0;
+            for (target, &voxel) in out.iter_mut().zip(&candidates) {
+                let value = volume.values[voxel];
+                if !value.is_finite() {
+                    if masked {
+                        let (i, j, k) = voxel_ijk(voxel, reference.dim);
+                        return Err(FeatureError::BadValue {
+                            path: path.clone(),
+                            participant: participant.clone(),
+                            problem: format!(
+                                "value {value} at voxel ({i}, {j}, {k}) inside the mask; fix the map or exclude the voxel from --mask"
+                            ),
+                        });
+                    }
+                    *target = f32::NAN;
+                    continue;
+                }
+                if value == 0.0 && !masked {
+                    *target = f32::NAN;
+                    continue;
+                }
+                *target = transform(f64::from(value), options.values, &mut clipped).map_err(|problem| {
+                    let (i, j, k) = voxel_ijk(voxel, reference.dim);
+                    FeatureError::BadValue {
+                        path: path.clone(),
+                        participant: participant.clone(),
+                        problem: format!("voxel ({i}, {j}, {k}): {problem}"),
+                    }
+                })?;
+            }
+            Ok(clipped)
+        })
+        .collect();
+    let mut clipped_values = 0;
+    for outcome in outcomes {
+        clipped_values += outcome?;
+    }
+    // Keep the candidate voxels valid in every participant (NaN marks an invalid value).
+    let keep: Vec<bool> = (0..width).into_par_iter().map(|col| (0..participants).all(|row| !values[row * width + col].is_nan())).collect();
+    let mask: Vec<usize> = candidates.iter().zip(&keep).filter(|(_, &k)| k).map(|(&voxel, _)| voxel).collect();
+    if mask.is_empty() {
+        return Err(FeatureError::EmptyMask {
+            path: first_path.clone(),
+            problem: "no voxel is finite and non-zero in every participant; check the maps share one brain coverage, or give --mask".into(),
+        });
+    }
+    let kept = mask.len();
+    if kept < width {
+        // Compact in place: row r's kept values move to r * kept, never past where they are read.
+        let mut write = 0;
+        for row in 0..participants {
+            for col in 0..width {
+                if keep[col] {
+                    values[write] = values[row * width + col];
+                    write += 1;
+                }
+            }
+        }
+        values.truncate(participants * kept);
+        values.shrink_to_fit();
+    }
+    let header = first.header.clone();
+    let space = FeatureSpace::Voxels(VoxelSpace {
+        dim: first.dim,
+        voxel_size: [header.pixdim[1], header.pixdim[2], header.pixdim[3]],
+        affine: first.affine,
+        reference_header: header,
+        mask,
+    });
+    let summary = FeatureSummary {
+        participants,
+        features: kept,
+        voxels_outside_mask: grid_size - kept,
+        voxels_dropped: width - kept,
+        clipped_values,
+        fisher_z_clip: FISHER_Z_CLIP,
+    };
+    let matrix = FeatureMatrix {
+        values: Array2::from_shape_vec((participants, kept), values).expect("rows x kept values by construction"),
+    };
+    Ok(Features { matrix, space, summary })
+}
+
+/// Checks one participant's matrix and writes its upper triangle into `out`.
+fn matrix_row(
+    matrix: ndarray::ArrayView2<f64>,
+    regions: usize,
+    scale: ValueScale,
+    out: &mut [f32],
+    path: &Path,
+    participant: &str,
+) -> Result<usize, FeatureError> {
+    let bad = |problem: String| FeatureError::BadValue { path: path.to_path_buf(), participant: participant.to_string(), problem };
+    let mut clipped = 0;
+    let mut index = 0;
+    for i in 0..regions {
+        for j in (i + 1)..regions {
+            let value = matrix[[i, j]];
+            let mirror = matrix[[j, i]];
+            if !value.is_finite() || !mirror.is_finite() {
+                let (row, col, found) = if value.is_finite() { (j, i, mirror) } else { (i, j, value) };
+                return Err(bad(format!(
+                    "value {found} at row {}, column {} (1-based); off-diagonal entries must be finite (fix or drop the participant)",
+                    row + 1,
+                    col + 1
+                )));
+            }
+            if (value - mirror).abs() > SYMMETRY_TOLERANCE * value.abs().max(mirror.abs()).max(1.0) {
+                return Err(bad(format!(
+                    "matrix is not symmetric: entry ({}, {}) = {value} but ({}, {}) = {mirror}; give undirected connectivity matrices",
+                    i + 1,
+                    j + 1,
+                    j + 1,
+                    i + 1
+                )));
+            }
+            out[index] = transform(value, scale, &mut clipped)
+                .map_err(|problem| bad(format!("row {}, column {}: {problem}", i + 1, j + 1)))?;
+            index += 1;
+        }
+    }
+    Ok(clipped)
+}
+
+fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, FeatureError> {
+    let participants = cohort.participant_ids.len();
+    let first_path = cohort.sources[0].path.clone();
+    let stack = match cohort.sources[0].stack_index {
+        Some(_) => Some(read_stack(&first_path)?),
+        None => None,
+    };
+    let check_square = |shape: (usize, usize), path: &Path, participant: &str| -> Result<(), FeatureError> {
+        if shape.0 != shape.1 {
+            return Err(FeatureError::BadValue {
+                path: path.to_path_buf(),
+                participant: participant.to_string(),
+                problem: format!("matrix of shape {}x{} is not square; expected R x R region connectivity", shape.0, shape.1),
+            });
+        }
+        Ok(())
+    };
+    let first_matrix = match &stack {
+        Some(stack) => stack.index_axis(ndarray::Axis(0), 0).to_owned(),
+        None => read_matrix(&first_path, &cohort.participant_ids[0])?,
+    };
+    check_square(first_matrix.dim(), &first_path, &cohort.participant_ids[0])?;
+    let regions = first_matrix.nrows();
+    if regions < 3 {
+        return Err(FeatureError::BadValue {
+            path: first_path,
+            participant: cohort.participant_ids[0].clone(),
+            problem: format!("{regions} region(s): a connectivity matrix needs at least 3 regions for a meaningful similarity"),
+        });
+    }
+    let region_names = match &options.region_names {
+        Some((atlas, names)) => {
+            if names.len() != regions {
+                return Err(FeatureError::AtlasMismatch { path: atlas.clone(), names: names.len(), regions });
+            }
+            names.clone()
+        }
+        None => (1..=regions).map(|index| format!("region-{index:03}")).collect(),
+    };
+    let width = regions * (regions - 1) / 2;
+    let mut values = vec![0.0f32; participants * width];
+    let outcomes: Vec<Result<usize, FeatureError>> = values
+        .par_chunks_mut(width)
+        .enumerate()
+        .map(|(row, out)| {
+            let path = &cohort.sources[row].path;
+            let participant = &cohort.participant_ids[row];
+            let owned;
+            let view = match (&stack, row) {
+                (Some(stack), _) => stack.index_axis(ndarray::Axis(0), row),
+                (None, 0) => first_matrix.view(),
+                (None, _) => {
+                    owned = read_matrix(path, participant)?;
+                    check_square(owned.dim(), path, participant)?;
+                    if owned.nrows() != regions {
+                        return Err(FeatureError::RegionCountMismatch {
+                            path: path.clone(),
+                            participant: participant.clone(),
+                            found: owned.nrows(),
+                            expected: regions,
+                            first: first_path.clone(),
+                        });
+                    }
+                    owned.view()
+                }
+            };
+            matrix_row(view, regions, options.values, out, path, participant)
+        })
+        .collect();
+    let mut clipped_values = 0;
+    for outcome in outcomes {
+        clipped_values += outcome?;
+    }
+    let matrix = FeatureMatrix {
+        values: Array2::from_shape_vec((participants, width), values).expect("rows x edges by construction"),
+    };
+    let summary = FeatureSummary {
+        participants,
+        features: width,
+        voxels_outside_mask: 0,
+        voxels_dropped: 0,
+        clipped_values,
+        fisher_z_clip: FISHER_Z_CLIP,
+    };
+    Ok(Features { matrix, space: FeatureSpace::Edges(EdgeSpace { region_count: regions, region_names }), summary })
+}

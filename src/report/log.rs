@@ -1,0 +1,43 @@
+//! Messages to standard error, honouring `--quiet` and `--verbose`.
+
+use std::io::Write;
+
+/// Where notes and warnings go: standard error, unless quiet.
+#[derive(Debug, Clone, Copy)]
+pub struct Log {
+    quiet: bool,
+    verbose: bool,
+}
+
+impl Log {
+    /// A logger; `quiet` silences notes and warnings, `verbose` adds details.
+    pub fn new(quiet: bool, verbose: bool) -> Self {
+        Log { quiet, verbose }
+    }
+
+    /// A logger that prints nothing (library use and tests).
+    pub fn silent() -> Self {
+        Log { quiet: true, verbose: false }
+    }
+
+    /// A progress note ("reading 120 seed maps").
+    pub fn note(&self, message: &str) {
+        if !self.quiet {
+            let _ = writeln!(std::io::stderr(), "strata: {message}");
+        }
+    }
+
+    /// A detail shown only with `--verbose`.
+    pub fn detail(&self, message: &str) {
+        if self.verbose && !self.quiet {
+            let _ = writeln!(std::io::stderr(), "strata: {message}");
+        }
+    }
+
+    /// A warning.
+    pub fn warn(&self, warning: &super::Warning) {
+        if !self.quiet {
+            let _ = writeln!(std::io::stderr(), "strata: warning: {warning}");
+        }
+    }
+}

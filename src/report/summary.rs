@@ -1,0 +1,240 @@
+//! The run summary: the one source of the printed text, `summary.json` and the report.
+
+use std::fmt::{self, Write as _};
+use std::path::PathBuf;
+
+use serde::{Serialize, Serializer};
+
+/// Lists at most this many participant ids in a message, then "and N more".
+const MAX_LISTED: usize = 10;
+
+fn list_ids(ids: &[String]) -> String {
+    let shown: Vec<&str> = ids.iter().take(MAX_LISTED).map(String::as_str).collect();
+    if ids.len() > MAX_LISTED {
+        format!("{} and {} more", shown.join(", "), ids.len() - MAX_LISTED)
+    } else {
+        shown.join(", ")
+    }
+}
+
+/// Every warning strata gives, with its likely cause and what to try.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Warning {
+    /// Participants had no edge at some densities of the sweep.
+    IsolatedParticipants {
+        /// The sparsest density at which they were isolated.
+        density: f64,
+        /// Who.
+        participants: Vec<String>,
+    },
+    /// Participants fell in communities below the minimum size and are unassigned (community 0).
+    Unassigned {
+        /// The minimum size in force.
+        min_size: usize,
+        /// Who.
+        participants: Vec<String>,
+    },
+    /// Participants have no group label (`n/a` or empty) and are left out of the contrasts.
+    MissingGroupLabel {
+        /// The group column.
+        column: String,
+        /// Who.
+        participants: Vec<String>,
+    },
+    /// A contrast could not be computed within a scope.
+    ContrastSkipped {
+        /// "whole cohort" or "community K".
+        scope: String,
+        /// Why (which level has fewer than two participants).
+        reason: String,
+    },
+    /// The consensus found a single community.
+    SingleCommunity,
+}
+
+impl fmt::Display for Warning {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Warning::IsolatedParticipants { density, participants } => write!(
+                f,
+                "{} participant(s) had no edge at density {density} and sit alone in that density's partition: {}; \
+                 their similarity to everyone else is low (check their inputs for artefacts), or the sweep starts too sparse",
+                participants.len(),
+                list_ids(participants)
+            ),
+            Warning::Unassigned { min_size, participants } => write!(
+                f,
+                "{} participant(s) are in communities smaller than {min_size} and are reported as community 0 (unassigned): {}; \
+                 they may be outliers, or lower --min-community-size to keep small communities",
+                participants.len(),
+                list_ids(participants)
+            ),
+            Warning::MissingGroupLabel { column, participants } => write!(
+                f,
+                "{} participant(s) have no value in column '{column}' and are left out of the contrasts \
+                 (they still take part in the communities): {}",
+                participants.len(),
+                list_ids(participants)
+            ),
+            Warning::ContrastSkipped { scope, reason } => {
+                write!(f, "{scope}: no contrast maps written: {reason}")
+            }
+            Warning::SingleCommunity => write!(
+                f,
+                "the consensus found one community: no density of the sweep showed subgroups that held together; \
+                 the cohort may be homogeneous at this resolution (try a sparser --densities range or a larger --resolution)"
+            ),
+        }
+    }
+}
+
+impl Serialize for Warning {
+    fn serialize<S: Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        serializer.serialize_str(&self.to_string())
+    }
+}
+
+/// One community of the consensus partition.
+#[derive(Debug, Clone, Serialize)]
+pub struct CommunitySummary {
+    /// 1..=k, or 0 for the unassigned participants.
+    pub community: usize,
+    /// Participants in it.
+    pub size: usize,
+    /// Participants per group level, in level order.
+    pub group_counts: Vec<(String, usize)>,
+}
+
+/// One contrast scope (the whole cohort or one community).
+#[derive(Debug, Clone, Serialize)]
+pub struct ComparisonSummary {
+    /// `all` or the community number.
+    pub scope: String,
+    /// Participants of level A.
+    pub count_a: usize,
+    /// Participants of level B.
+    pub count_b: usize,
+    /// Whether maps were written.
+    pub written: bool,
+    /// Why not, when not.
+    pub reason: Option<String>,
+    /// Features with BH q below alpha.
+    pub significant_features: usize,
+    /// Largest |t|.
+    pub max_abs_t: f64,
+    /// Where the largest |t| is (mm coordinates or region pair).
+    pub peak: String,
+    /// The t at the peak.
+    pub peak_t: f64,
+}
+
+/// Everything a run reports.
+#[derive(Debug, Clone, Serialize)]
+pub struct RunSummary {
+    /// strata's version.
+    pub strata_version: String,
+    /// The output folder.
+    pub output: PathBuf,
+    /// `seed_maps` or `region_matrices`.
+    pub input_kind: String,
+    /// Participants analysed.
+    pub participant_count: usize,
+    /// Features per participant.
+    pub feature_count: usize,
+    /// What the features are, in words.
+    pub feature_description: String,
+    /// The group column.
+    pub group_column: String,
+    /// The contrast levels (A, B).
+    pub contrast: (String, String),
+    /// Participants per group level over the cohort.
+    pub group_counts: Vec<(String, usize)>,
+    /// Densities of the sweep.
+    pub densities: Vec<f64>,
+    /// Densities that entered the consensus.
+    pub densities_in_consensus: Vec<f64>,
+    /// Communities of the consensus (excluding unassigned).
+    pub community_count: usize,
+    /// Communities and their composition (community 0 last, if any).
+    pub communities: Vec<CommunitySummary>,
+    /// Modularity of the consensus partition on the co-assignment graph.
+    pub consensus_modularity: f64,
+    /// Consensus iterations.
+    pub consensus_iterations: usize,
+    /// The contrasts.
+    pub comparisons: Vec<ComparisonSummary>,
+    /// The false-discovery level used in `significant_features`.
+    pub alpha: f64,
+    /// Warnings, in the order they arose.
+    pub warnings: Vec<Warning>,
+    /// Wall-clock seconds of the whole run.
+    pub seconds: f64,
+}
+
+impl RunSummary {
+    /// The summary in words, as printed at the end of a run.
+    pub fn text(&self) -> String {
+        let mut text = String::new();
+        let kind = if self.input_kind == "seed_maps" { "seed maps" } else { "region matrices" };
+        let groups: Vec<String> = self.group_counts.iter().map(|(level, count)| format!("{count} {level}")).collect();
+        let _ = writeln!(
+            text,
+            "strata {}: {} participants ({}), {kind}, {}.",
+            self.strata_version,
+            self.participant_count,
+            groups.join(", "),
+            self.feature_description
+        );
+        let sizes: Vec<String> = self
+            .communities
+            .iter()
+            .filter(|community| community.community > 0)
+            .map(|community| format!("{} (n={})", community.community, community.size))
+            .collect();
+        let unassigned = self.communities.iter().find(|community| community.community == 0).map_or(0, |c| c.size);
+        let _ = writeln!(
+            text,
+            "Communities: {} found: {}{} (consensus over {} of {} densities, modularity {:.3}).",
+            self.community_count,
+            sizes.join(", "),
+            if unassigned > 0 { format!("; {unassigned} unassigned") } else { String::new() },
+            self.densities_in_consensus.len(),
+            self.densities.len(),
+            self.consensus_modularity
+        );
+        let (a, b) = &self.contrast;
+        for comparison in &self.comparisons {
+            let scope =
+                if comparison.scope == "all" { "Whole cohort".to_string() } else { format!("Community {}", comparison.scope) };
+            if comparison.written {
+                let _ = writeln!(
+                    text,
+                    "{scope}: {a} (n={}) vs {b} (n={}): {} features with q < {}; peak t = {:.2} at {}.",
+                    comparison.count_a,
+                    comparison.count_b,
+                    comparison.significant_features,
+                    self.alpha,
+                    comparison.peak_t,
+                    comparison.peak
+                );
+            } else {
+                let _ = writeln!(
+                    text,
+                    "{scope}: {a} (n={}) vs {b} (n={}): not compared ({}).",
+                    comparison.count_a,
+                    comparison.count_b,
+                    comparison.reason.as_deref().unwrap_or("")
+                );
+            }
+        }
+        for warning in &self.warnings {
+            let _ = writeln!(text, "Warning: {warning}");
+        }
+        let _ = writeln!(text, "Results: {} ({:.1} s).", self.output.display(), self.seconds);
+        let _ = writeln!(
+            text,
+            "Research software: subgroups and maps are not diagnoses and not for individual clinical decisions."
+        );
+        text
+    }
+}
