@@ -91,7 +91,12 @@ const WHITE_NOISE_SHARE: f64 = 0.2;
 /// Width (sigma, mm) of the subgroup-profile blobs of the seed maps.
 const PROFILE_BLOB_SIGMA_MM: f64 = 14.0;
 /// Number of subgroup-profile blobs per subgroup in the seed maps.
-const PROFILE_BLOB_COUNT: usize = 4;
+const PROFILE_BLOB_COUNT: usize = 6;
+/// Peak of a seed-map subgroup-profile blob relative to `separation * noise_sd`: blobs cover a
+/// small share of the brain, so their peak must exceed the matrices' per-edge profile for a
+/// similar participant-similarity contrast (tuned so the default seed maps separate about as
+/// well as the default matrices).
+const SEED_PROFILE_GAIN: f64 = 3.0;
 /// Width (sigma, mm) of the diagnosis-effect blob of each subgroup.
 const EFFECT_BLOB_SIGMA_MM: f64 = 9.0;
 /// Gzip level of written NIfTI files (flate2 default level, a balance of size and speed).
@@ -774,7 +779,7 @@ fn seed_patterns(scenario: &Scenario, mask: &Array3<bool>) -> SeedPatterns {
                 add_blob(
                     &mut profile,
                     &coordinates,
-                    Blob { centre, sigma: PROFILE_BLOB_SIGMA_MM, amplitude: sign },
+                    Blob { centre, sigma: PROFILE_BLOB_SIGMA_MM, amplitude: sign * SEED_PROFILE_GAIN },
                 );
             }
             profile
