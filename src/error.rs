@@ -24,6 +24,9 @@ pub enum Error {
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
+    /// The demo cohort could not be generated.
+    #[error(transparent)]
+    Demo(#[from] crate::demo::DemoError),
 }
 
 /// Process exit codes, documented in `--help` and the README.
@@ -50,6 +53,7 @@ impl Error {
             Error::Read(_) | Error::Feature(_) => exit_code::INPUT,
             Error::Community(_) => exit_code::ANALYSIS,
             Error::Write(_) => exit_code::OUTPUT,
+            Error::Demo(_) => exit_code::OUTPUT,
         }
     }
 }

@@ -20,10 +20,11 @@ use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale};
 use crate::maps::{self, MapName, Statistic, WriteError};
 use crate::read::{self, Cohort, InputOptions};
 use crate::report::{
-    file_sha256, format_number, utc_timestamp, CommunitySummary, ComparisonSummary, InputDigest, Log, OutputFolder,
+    file_sha256, utc_timestamp, CommunitySummary, ComparisonSummary, InputDigest, Log, OutputFolder,
     Provenance, RunSummary, Table, Warning,
 };
 use crate::similarity::{self, SimilarityMatrix};
+use crate::report::tables::format_number;
 use crate::stats;
 
 /// BIDS version whose derivative rules the output folder follows.
@@ -149,7 +150,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     })?;
     log.note(&format!("{} participants matched to {} input file(s)", cohort.participant_ids.len(), cohort.sources.len()));
 
-    let region_names = config.atlas.as_deref().map(read_atlas_names).transpose()?;
+    let region_names = match &config.atlas {
+        Some(path) => Some((path.clone(), read_atlas_names(path)?)),
+        None => None,
+    };
     let features = timings.time(log, "features", || {
         let options = FeatureOptions {
             mask: config.mask.clone(),
@@ -673,12 +677,22 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
         } else {
             crate::demo::write_seedmap_cohort(&scenario, staged_inputs.path())?
         };
+        let atlas_table = if kind == "matrices" && scenario.region_count == crate::demo::atlas_regions().len() {
+            crate::demo::write_atlas(&staged_inputs.path().join("atlas"))?;
+            Some(inputs_dir.join("atlas").join("northfield100_regions.tsv"))
+        } else {
+            None
+        };
+        // The cohort was written under the staging name: point its paths at the final folder.
+        let staging = staged_inputs.path().to_string_lossy().into_owned();
+        let final_name = inputs_dir.to_string_lossy().into_owned();
         staged_inputs.commit()?;
-        let cohort = crate::demo::DemoCohort::open(&inputs_dir, &staged)?;
+        let inputs_glob = staged.inputs_glob.replacen(&staging, &final_name, 1);
+        let participants_tsv = inputs_dir.join("participants.tsv");
         let results_dir = options.out.join(format!("results-{kind}"));
         let config = RunConfig {
-            inputs: vec![cohort.inputs_glob.clone()],
-            participants: cohort.participants_tsv.clone(),
+            inputs: vec![inputs_glob],
+            participants: participants_tsv,
             match_column: None,
             group_column: "diagnosis".into(),
             contrast: ("insomnia".into(), "control".into()),
@@ -686,7 +700,7 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
             force: false,
             mask: None,
             values: Values::R,
-            atlas: cohort.atlas_table.clone(),
+            atlas: atlas_table,
             densities: crate::config::DEFAULT_DENSITIES.to_vec(),
             trials: crate::config::DEFAULT_TRIALS,
             resolution: crate::config::DEFAULT_RESOLUTION,
@@ -698,7 +712,7 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
         };
         let summary = run(&config, log)?;
         let found = read_communities(&config.out.join("participants.tsv"))?;
-        let ari = crate::validation::adjusted_rand_index(&cohort.truth, &found);
+        let ari = crate::validation::adjusted_rand_index(&staged.truth, &found);
         let final_dir = &config.out;
         let _ = std::fmt::Write::write_fmt(
             &mut text,
@@ -706,7 +720,7 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
                 "Demo ({kind}): {} participants, {} planted subgroups; strata found {} communities; \
                  adjusted Rand index with the planted subgroups: {ari:.3}.\n  results: {}\n",
                 summary.participant_count,
-                cohort.truth.iter().copied().max().unwrap_or(0),
+                staged.truth.iter().copied().max().unwrap_or(0),
                 summary.community_count,
                 final_dir.display()
             ),

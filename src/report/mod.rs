@@ -9,7 +9,7 @@ mod log;
 mod output;
 mod provenance;
 mod summary;
-mod tables;
+pub mod tables;
 
 pub use log::Log;
 pub use output::OutputFolder;
