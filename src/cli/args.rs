@@ -86,8 +86,8 @@ pub struct RunArgs {
     pub alpha: f64,
 
     /// Proportional densities of the graph sweep: a range START:STOP:STEP or a list A,B,...
-    /// (fractions of all participant pairs). Default 0.02:0.2:0.02.
-    #[arg(long, value_name = "RANGE", default_value = "0.02:0.2:0.02", help_heading = "Graph and communities")]
+    /// (fractions of all participant pairs).
+    #[arg(long, value_name = "RANGE", default_value = config::DEFAULT_DENSITIES_TEXT, help_heading = "Graph and communities")]
     pub densities: String,
     /// Seeded Louvain trials per density; the highest modularity is kept.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_TRIALS, help_heading = "Graph and communities")]

@@ -4,8 +4,9 @@
 //! Dense participant graphs often collapse to one community, and a plain co-assignment
 //! consensus over a wide sweep is then dominated by those collapsed densities. strata therefore
 //! weights each density by the modularity of its best partition and leaves a density out when
-//! its partition shows no structure: fewer than two communities of at least the minimum size,
-//! or modularity below [`DENSITY_MODULARITY_FLOOR`]. Every Louvain trial of an included density
+//! its partition shows no structure: fewer than two communities of at least the minimum size
+//! (collapsed), fewer than [`MIN_ASSIGNED_FRACTION`] of the participants in such communities
+//! (fragmented), or modularity below [`DENSITY_MODULARITY_FLOOR`]. Every Louvain trial of an included density
 //! enters the co-assignment matrix with weight Q_d / trials. The Lancichinetti-Fortunato
 //! iteration then runs on that matrix. When no density has structure, the consensus is one
 //! community: the honest answer that no subgroups were found.
@@ -24,6 +25,11 @@ use crate::similarity::SimilarityMatrix;
 /// above the near-zero values of collapsed (one-community) partitions (common practice sets a
 /// floor near zero; this value is strata's choice, see docs/methods.md).
 pub const DENSITY_MODULARITY_FLOOR: f64 = 0.05;
+
+/// A density enters the consensus only if at least this share of participants sits in
+/// communities of the minimum size; below it the graph is too sparse and its partition mostly
+/// fragments and isolates (strata's choice: half the cohort, see docs/methods.md).
+pub const MIN_ASSIGNED_FRACTION: f64 = 0.5;
 
 /// Louvain trials per consensus iteration on the co-assignment graph.
 pub const CONSENSUS_TRIALS: usize = 10;
@@ -112,12 +118,15 @@ fn graph_from_coassignment(matrix: &Array2<f32>, threshold: f64) -> ParticipantG
 }
 
 fn structured(labels: &[usize], min_size: usize) -> bool {
+    let node_count = labels.len();
     let (labels, count) = renumber(labels);
     let mut sizes = vec![0usize; count];
     for label in labels {
         sizes[label] += 1;
     }
-    sizes.iter().filter(|&&size| size >= min_size).count() >= 2
+    let large: Vec<usize> = sizes.into_iter().filter(|&size| size >= min_size).collect();
+    let assigned: usize = large.iter().sum();
+    large.len() >= 2 && assigned as f64 >= MIN_ASSIGNED_FRACTION * node_count as f64
 }
 
 /// Community detection over the density sweep, then the consensus partition.
