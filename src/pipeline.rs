@@ -238,13 +238,23 @@ fn collect_community_warnings(
     warnings: &mut Vec<Warning>,
 ) {
     let ids = &cohort.participant_ids;
-    if let Some(sparsest) =
-        communities.densities.iter().filter(|density| density.consensus_weight > 0.0 && !density.isolated.is_empty()).next()
-    {
-        warnings.push(Warning::IsolatedParticipants {
-            density: sparsest.density,
-            participants: sparsest.isolated.iter().map(|&row| ids[row].clone()).collect(),
-        });
+    // Participants isolated in at least half of the densities that entered the consensus: a
+    // participant isolated only at the sparsest densities is the normal effect of thresholding.
+    let included: Vec<_> = communities.densities.iter().filter(|density| density.consensus_weight > 0.0).collect();
+    let mut isolated_count = vec![0usize; ids.len()];
+    for density in &included {
+        for &row in &density.isolated {
+            isolated_count[row] += 1;
+        }
+    }
+    let often: Vec<String> = isolated_count
+        .iter()
+        .zip(ids)
+        .filter(|(&count, _)| count > 0 && 2 * count >= included.len())
+        .map(|(_, id)| id.clone())
+        .collect();
+    if !often.is_empty() {
+        warnings.push(Warning::IsolatedParticipants { densities: included.len(), participants: often });
     }
     let unassigned: Vec<String> = communities
         .partition
@@ -282,7 +292,6 @@ fn compare_and_write(
     warnings: &mut Vec<Warning>,
 ) -> Result<Vec<ComparisonSummary>, Error> {
     let (level_a, level_b) = &config.contrast;
-    let contrast = maps::contrast_label(level_a, level_b);
     let space = &features.space;
     let matrix = &features.matrix;
     let mut summaries = Vec::new();
@@ -295,23 +304,26 @@ fn compare_and_write(
         });
         // Means: pooled, then one per group level with at least one participant in scope.
         let pooled = stats::group_mean(matrix, &rows);
-        let name = MapName::new().entity("comm", &scope).suffix("mean");
-        maps::write_map(maps_dir, space, &name, Statistic::Mean, &pooled, &with(&base_sidecar, json!({
+        let name = MapName::builder().community(&scope).build_for(Statistic::Mean)?;
+        let counts = groups.counts(&rows);
+        let count_refs: Vec<(&str, usize)> = counts.iter().map(|(level, n)| (level.as_str(), *n)).collect();
+        let pooled_sidecar = with(&with(&base_sidecar, maps::groups_field(&count_refs)), json!({
             "Description": format!("Mean Fisher z over all participants of the {scope_words}"),
             "Participants": rows.len(),
-        })), None)?;
+        }));
+        maps::write_map(maps_dir, space, &name, Statistic::Mean, &pooled, &pooled_sidecar, None)?;
         for level in &groups.levels {
             let level_rows = groups.rows_of(level, &rows);
             if level_rows.is_empty() {
                 continue;
             }
             let mean = stats::group_mean(matrix, &level_rows);
-            let name = MapName::new().entity("comm", &scope).entity("group", &maps::sanitise_label(level)).suffix("mean");
-            maps::write_map(maps_dir, space, &name, Statistic::Mean, &mean, &with(&base_sidecar, json!({
+            let name = MapName::builder().community(&scope).group(level).build_for(Statistic::Mean)?;
+            let level_sidecar = with(&with(&base_sidecar, maps::groups_field(&[(level.as_str(), level_rows.len())])), json!({
                 "Description": format!("Mean Fisher z of the {level} participants of the {scope_words}"),
-                "Group": level,
                 "Participants": level_rows.len(),
-            })), None)?;
+            }));
+            maps::write_map(maps_dir, space, &name, Statistic::Mean, &mean, &level_sidecar, None)?;
         }
         let rows_a = groups.rows_of(level_a, &rows);
         let rows_b = groups.rows_of(level_b, &rows);
@@ -339,25 +351,23 @@ fn compare_and_write(
             flag: "--contrast".into(),
             message: format!("{scope_words}: {error}"),
         })?;
-        let contrast_sidecar = with(&base_sidecar, json!({
-            "Contrast": format!("{level_a} - {level_b}"),
-            "Groups": { level_a.as_str(): rows_a.len(), level_b.as_str(): rows_b.len() },
+        let contrast_sidecar = with(&with(&base_sidecar, maps::contrast_fields(level_a, rows_a.len(), level_b, rows_b.len())), json!({
             "Test": "Welch two-sample t test (unequal variances), two-sided",
         }));
         let uniform_dof = uniform(&comparison.dof);
         let outputs: [(Statistic, Vec<f32>, &str); 6] = [
-            (Statistic::Difference, comparison.difference.clone(), "Mean Fisher z difference A - B"),
-            (Statistic::T, comparison.t.clone(), "Welch t statistic of A - B"),
+            (Statistic::Difference, comparison.difference.clone(), "Mean Fisher z difference"),
+            (Statistic::T, comparison.t.clone(), "Welch t statistic"),
             (Statistic::Dof, comparison.dof.clone(), "Welch-Satterthwaite degrees of freedom"),
             (Statistic::P, comparison.p.iter().map(|&p| p as f32).collect(), "Two-sided uncorrected p of the Welch t test"),
             (Statistic::Q, comparison.q.iter().map(|&q| q as f32).collect(), "Benjamini-Hochberg q across all features of this map"),
             (Statistic::HedgesG, comparison.hedges_g.clone(), "Hedges g (bias-corrected standardised mean difference)"),
         ];
         for (statistic, values, description) in outputs {
-            let name = MapName::new().entity("comm", &scope).entity("contrast", &contrast).suffix(statistic.suffix());
+            let name = MapName::builder().community(&scope).contrast(level_a, level_b).build_for(statistic)?;
             let t_dof = if statistic == Statistic::T { uniform_dof } else { None };
             maps::write_map(maps_dir, space, &name, statistic, &values, &with(&contrast_sidecar, json!({
-                "Description": format!("{description}, {scope_words}"),
+                "Description": format!("{description} of {level_a} - {level_b}, {scope_words}"),
             })), t_dof)?;
         }
         let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
@@ -521,7 +531,7 @@ fn write_tables(
         .levels
         .iter()
         .map(|level| format!("n_{level}"))
-        .chain(std::iter::once(format!("n_{MISSING}")))
+        .chain(std::iter::once("n_missing".to_string()))
         .collect();
     let mut header = vec!["community".to_string(), "size".to_string()];
     header.extend(level_columns);

@@ -22,8 +22,8 @@ fn list_ids(ids: &[String]) -> String {
 pub enum Warning {
     /// Participants had no edge at some densities of the sweep.
     IsolatedParticipants {
-        /// The sparsest density at which they were isolated.
-        density: f64,
+        /// Densities that entered the consensus.
+        densities: usize,
         /// Who.
         participants: Vec<String>,
     },
@@ -55,10 +55,10 @@ pub enum Warning {
 impl fmt::Display for Warning {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            Warning::IsolatedParticipants { density, participants } => write!(
+            Warning::IsolatedParticipants { densities, participants } => write!(
                 f,
-                "{} participant(s) had no edge at density {density} and sit alone in that density's partition: {}; \
-                 their similarity to everyone else is low (check their inputs for artefacts), or the sweep starts too sparse",
+                "{} participant(s) had no edge in at least half of the {densities} densities of the consensus: {}; \
+                 their similarity to everyone else is low (check their inputs for artefacts), or the sweep is too sparse for this cohort",
                 participants.len(),
                 list_ids(participants)
             ),
