@@ -115,16 +115,22 @@ pub fn parse_densities(text: &str) -> Result<Vec<f64>, ConfigError> {
     const FLAG: &str = "--densities";
     let parse = |part: &str| -> Result<f64, ConfigError> {
         part.trim().parse::<f64>().map_err(|_| {
-            invalid(FLAG, format!("'{part}' is not a number; give fractions like 0.05,0.1 or a range 0.02:0.2:0.02"))
+            invalid(
+                FLAG,
+                format!("'{part}' is not a number; give fractions like 0.05,0.1 or a range 0.02:0.2:0.02"),
+            )
         })
     };
     let densities = if text.contains(':') {
         let parts: Vec<&str> = text.split(':').collect();
         if parts.len() != 3 {
-            return Err(invalid(FLAG, format!("range '{text}' must be START:STOP:STEP, for example 0.02:0.2:0.02")));
+            return Err(invalid(
+                FLAG,
+                format!("range '{text}' must be START:STOP:STEP, for example 0.02:0.2:0.02"),
+            ));
         }
         let (start, stop, step) = (parse(parts[0])?, parse(parts[1])?, parse(parts[2])?);
-        if !(step > 0.0) || stop < start {
+        if step.is_nan() || step <= 0.0 || stop < start {
             return Err(invalid(FLAG, format!("range '{text}' needs STEP > 0 and STOP >= START")));
         }
         let count = ((stop - start) / step + 1e-9).floor() as usize + 1;
@@ -139,7 +145,9 @@ pub fn parse_densities(text: &str) -> Result<Vec<f64>, ConfigError> {
         if !(density > 0.0 && density <= 1.0) {
             return Err(invalid(
                 FLAG,
-                format!("density {density} is outside (0, 1]; densities are fractions of all participant pairs"),
+                format!(
+                    "density {density} is outside (0, 1]; densities are fractions of all participant pairs"
+                ),
             ));
         }
     }
@@ -151,12 +159,15 @@ pub fn parse_contrast(text: &str) -> Result<(String, String), ConfigError> {
     let parts: Vec<&str> = text.split(',').map(str::trim).collect();
     match parts.as_slice() {
         [a, b] if !a.is_empty() && !b.is_empty() && a != b => Ok((a.to_string(), b.to_string())),
-        [a, b] if a == b && !a.is_empty() => {
-            Err(invalid("--contrast", format!("both levels are '{a}'; give two different levels, for example insomnia,control")))
-        }
+        [a, b] if a == b && !a.is_empty() => Err(invalid(
+            "--contrast",
+            format!("both levels are '{a}'; give two different levels, for example insomnia,control"),
+        )),
         _ => Err(invalid(
             "--contrast",
-            format!("'{text}' is not two levels A,B of --group-column; for example --contrast insomnia,control"),
+            format!(
+                "'{text}' is not two levels A,B of --group-column; for example --contrast insomnia,control"
+            ),
         )),
     }
 }
@@ -165,12 +176,15 @@ impl RunConfig {
     /// Checks cross-flag rules; every message names the flags involved.
     pub fn validate(self) -> Result<Self, ConfigError> {
         if self.inputs.is_empty() {
-            return Err(invalid("--inputs", "no input given; for example --inputs 'maps/sub-*_seedmap.nii.gz'"));
+            return Err(invalid(
+                "--inputs",
+                "no input given; for example --inputs 'maps/sub-*_seedmap.nii.gz'",
+            ));
         }
         if self.trials == 0 {
             return Err(invalid("--trials", "must be at least 1"));
         }
-        if !(self.resolution > 0.0) || !self.resolution.is_finite() {
+        if !self.resolution.is_finite() || self.resolution <= 0.0 {
             return Err(invalid("--resolution", format!("{} must be a positive number", self.resolution)));
         }
         if !(self.consensus_threshold > 0.0 && self.consensus_threshold < 1.0) {

@@ -25,6 +25,10 @@
 //! strata is research software. Subgroup assignments and maps are not diagnoses and are not for
 //! individual clinical decisions.
 
+// Errors carry the file, participant and found/expected values their messages need; they are
+// built once, on the failure path, so their size does not matter.
+#![allow(clippy::result_large_err)]
+
 pub mod communities;
 pub mod config;
 pub mod demo;

@@ -19,12 +19,12 @@ use crate::error::Error;
 use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale};
 use crate::maps::{self, MapName, Statistic, WriteError};
 use crate::read::{self, Cohort, InputOptions};
+use crate::report::tables::format_number;
 use crate::report::{
     file_sha256, utc_timestamp, CommunitySummary, ComparisonSummary, InputDigest, Log, OutputFolder,
     Provenance, RunSummary, Table, Warning,
 };
 use crate::similarity::{self, SimilarityMatrix};
-use crate::report::tables::format_number;
 use crate::stats;
 
 /// BIDS version whose derivative rules the output folder follows.
@@ -143,12 +143,17 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
 
     let (cohort, groups) = timings.time(log, "read", || -> Result<_, Error> {
         let table = read::read_participants(&config.participants)?;
-        let options = InputOptions { patterns: config.inputs.clone(), match_column: config.match_column.clone() };
+        let options =
+            InputOptions { patterns: config.inputs.clone(), match_column: config.match_column.clone() };
         let cohort = read::discover_inputs(&options, &table)?;
         let groups = group_labels(config, &cohort)?;
         Ok((cohort, groups))
     })?;
-    log.note(&format!("{} participants matched to {} input file(s)", cohort.participant_ids.len(), cohort.sources.len()));
+    log.note(&format!(
+        "{} participants matched to {} input file(s)",
+        cohort.participant_ids.len(),
+        cohort.sources.len()
+    ));
 
     let region_names = match &config.atlas {
         Some(path) => Some((path.clone(), read_atlas_names(path)?)),
@@ -196,7 +201,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         .map(|(_, id)| id.clone())
         .collect();
     if !missing.is_empty() {
-        warnings.push(Warning::MissingGroupLabel { column: config.group_column.clone(), participants: missing });
+        warnings
+            .push(Warning::MissingGroupLabel { column: config.group_column.clone(), participants: missing });
     }
 
     log.note("group comparisons and maps");
@@ -212,7 +218,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         log.warn(warning);
     }
 
-    let summary = build_summary(config, &cohort, &features, &groups, &communities, comparisons, warnings, started);
+    let summary =
+        build_summary(config, &cohort, &features, &groups, &communities, comparisons, warnings, started);
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
@@ -240,7 +247,8 @@ fn collect_community_warnings(
     let ids = &cohort.participant_ids;
     // Participants isolated in at least half of the densities that entered the consensus: a
     // participant isolated only at the sparsest densities is the normal effect of thresholding.
-    let included: Vec<_> = communities.densities.iter().filter(|density| density.consensus_weight > 0.0).collect();
+    let included: Vec<_> =
+        communities.densities.iter().filter(|density| density.consensus_weight > 0.0).collect();
     let mut isolated_count = vec![0usize; ids.len()];
     for density in &included {
         for &row in &density.isolated {
@@ -277,7 +285,8 @@ fn scopes(communities: &CommunityResult) -> Vec<(String, Vec<usize>)> {
     let membership = &communities.partition.membership;
     let mut scopes = vec![("all".to_string(), (0..membership.len()).collect::<Vec<_>>())];
     for community in 1..=communities.partition.community_count() {
-        let rows = membership.iter().enumerate().filter(|(_, &c)| c == community).map(|(row, _)| row).collect();
+        let rows =
+            membership.iter().enumerate().filter(|(_, &c)| c == community).map(|(row, _)| row).collect();
         scopes.push((community.to_string(), rows));
     }
     scopes
@@ -296,7 +305,8 @@ fn compare_and_write(
     let matrix = &features.matrix;
     let mut summaries = Vec::new();
     for (scope, rows) in scopes(communities) {
-        let scope_words = if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
+        let scope_words =
+            if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
         let base_sidecar = json!({
             "Community": if scope == "all" { json!("all") } else { json!(scope.parse::<usize>().unwrap_or(0)) },
             "CommunitySize": rows.len(),
@@ -307,10 +317,13 @@ fn compare_and_write(
         let name = MapName::builder().community(&scope).build_for(Statistic::Mean)?;
         let counts = groups.counts(&rows);
         let count_refs: Vec<(&str, usize)> = counts.iter().map(|(level, n)| (level.as_str(), *n)).collect();
-        let pooled_sidecar = with(&with(&base_sidecar, maps::groups_field(&count_refs)), json!({
-            "Description": format!("Mean Fisher z over all participants of the {scope_words}"),
-            "Participants": rows.len(),
-        }));
+        let pooled_sidecar = with(
+            &with(&base_sidecar, maps::groups_field(&count_refs)),
+            json!({
+                "Description": format!("Mean Fisher z over all participants of the {scope_words}"),
+                "Participants": rows.len(),
+            }),
+        );
         maps::write_map(maps_dir, space, &name, Statistic::Mean, &pooled, &pooled_sidecar, None)?;
         for level in &groups.levels {
             let level_rows = groups.rows_of(level, &rows);
@@ -319,10 +332,13 @@ fn compare_and_write(
             }
             let mean = stats::group_mean(matrix, &level_rows);
             let name = MapName::builder().community(&scope).group(level).build_for(Statistic::Mean)?;
-            let level_sidecar = with(&with(&base_sidecar, maps::groups_field(&[(level.as_str(), level_rows.len())])), json!({
-                "Description": format!("Mean Fisher z of the {level} participants of the {scope_words}"),
-                "Participants": level_rows.len(),
-            }));
+            let level_sidecar = with(
+                &with(&base_sidecar, maps::groups_field(&[(level.as_str(), level_rows.len())])),
+                json!({
+                    "Description": format!("Mean Fisher z of the {level} participants of the {scope_words}"),
+                    "Participants": level_rows.len(),
+                }),
+            );
             maps::write_map(maps_dir, space, &name, Statistic::Mean, &mean, &level_sidecar, None)?;
         }
         let rows_a = groups.rows_of(level_a, &rows);
@@ -347,28 +363,54 @@ fn compare_and_write(
             });
             continue;
         }
-        let comparison = stats::welch_comparison(matrix, &rows_a, &rows_b).map_err(|error| ConfigError::Invalid {
-            flag: "--contrast".into(),
-            message: format!("{scope_words}: {error}"),
+        let comparison = stats::welch_comparison(matrix, &rows_a, &rows_b).map_err(|error| {
+            ConfigError::Invalid { flag: "--contrast".into(), message: format!("{scope_words}: {error}") }
         })?;
-        let contrast_sidecar = with(&with(&base_sidecar, maps::contrast_fields(level_a, rows_a.len(), level_b, rows_b.len())), json!({
-            "Test": "Welch two-sample t test (unequal variances), two-sided",
-        }));
+        let contrast_sidecar = with(
+            &with(&base_sidecar, maps::contrast_fields(level_a, rows_a.len(), level_b, rows_b.len())),
+            json!({
+                "Test": "Welch two-sample t test (unequal variances), two-sided",
+            }),
+        );
         let uniform_dof = uniform(&comparison.dof);
         let outputs: [(Statistic, Vec<f32>, &str); 6] = [
             (Statistic::Difference, comparison.difference.clone(), "Mean Fisher z difference"),
             (Statistic::T, comparison.t.clone(), "Welch t statistic"),
             (Statistic::Dof, comparison.dof.clone(), "Welch-Satterthwaite degrees of freedom"),
-            (Statistic::P, comparison.p.iter().map(|&p| p as f32).collect(), "Two-sided uncorrected p of the Welch t test"),
-            (Statistic::Q, comparison.q.iter().map(|&q| q as f32).collect(), "Benjamini-Hochberg q across all features of this map"),
-            (Statistic::HedgesG, comparison.hedges_g.clone(), "Hedges g (bias-corrected standardised mean difference)"),
+            (
+                Statistic::P,
+                comparison.p.iter().map(|&p| p as f32).collect(),
+                "Two-sided uncorrected p of the Welch t test",
+            ),
+            (
+                Statistic::Q,
+                comparison.q.iter().map(|&q| q as f32).collect(),
+                "Benjamini-Hochberg q across all features of this map",
+            ),
+            (
+                Statistic::HedgesG,
+                comparison.hedges_g.clone(),
+                "Hedges g (bias-corrected standardised mean difference)",
+            ),
         ];
         for (statistic, values, description) in outputs {
-            let name = MapName::builder().community(&scope).contrast(level_a, level_b).build_for(statistic)?;
+            let name =
+                MapName::builder().community(&scope).contrast(level_a, level_b).build_for(statistic)?;
             let t_dof = if statistic == Statistic::T { uniform_dof } else { None };
-            maps::write_map(maps_dir, space, &name, statistic, &values, &with(&contrast_sidecar, json!({
-                "Description": format!("{description} of {level_a} - {level_b}, {scope_words}"),
-            })), t_dof)?;
+            maps::write_map(
+                maps_dir,
+                space,
+                &name,
+                statistic,
+                &values,
+                &with(
+                    &contrast_sidecar,
+                    json!({
+                        "Description": format!("{description} of {level_a} - {level_b}, {scope_words}"),
+                    }),
+                ),
+                t_dof,
+            )?;
         }
         let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
         let (peak_index, peak_t) = comparison
@@ -406,7 +448,10 @@ fn with(base: &serde_json::Value, extra: serde_json::Value) -> serde_json::Value
 /// The common value when all values agree (within f32 rounding), else None.
 fn uniform(values: &[f32]) -> Option<f64> {
     let first = *values.first()?;
-    values.iter().all(|&value| (value - first).abs() <= 1e-4 * first.abs().max(1.0)).then_some(f64::from(first))
+    values
+        .iter()
+        .all(|&value| (value - first).abs() <= 1e-4 * first.abs().max(1.0))
+        .then_some(f64::from(first))
 }
 
 /// A feature's location in words: mm coordinates for voxels, region names for edges.
@@ -419,7 +464,10 @@ pub fn describe_feature(space: &FeatureSpace, index: usize) -> String {
             let a = &voxels.affine;
             let mm: Vec<String> = (0..3)
                 .map(|row| {
-                    let value = a[row][0] * ijk[0] as f64 + a[row][1] * ijk[1] as f64 + a[row][2] * ijk[2] as f64 + a[row][3];
+                    let value = a[row][0] * ijk[0] as f64
+                        + a[row][1] * ijk[1] as f64
+                        + a[row][2] * ijk[2] as f64
+                        + a[row][3];
                     format!("{value:.0}")
                 })
                 .collect();
@@ -456,10 +504,20 @@ fn build_summary(
             group_counts: groups.counts(&rows),
         })
         .collect();
-    let unassigned: Vec<usize> =
-        communities.partition.membership.iter().enumerate().filter(|(_, &c)| c == 0).map(|(row, _)| row).collect();
+    let unassigned: Vec<usize> = communities
+        .partition
+        .membership
+        .iter()
+        .enumerate()
+        .filter(|(_, &c)| c == 0)
+        .map(|(row, _)| row)
+        .collect();
     if !unassigned.is_empty() {
-        community_rows.push(CommunitySummary { community: 0, size: unassigned.len(), group_counts: groups.counts(&unassigned) });
+        community_rows.push(CommunitySummary {
+            community: 0,
+            size: unassigned.len(),
+            group_counts: groups.counts(&unassigned),
+        });
     }
     let feature_description = match &features.space {
         FeatureSpace::Voxels(voxels) => format!(
@@ -537,8 +595,14 @@ fn write_tables(
     header.extend(level_columns);
     let mut table = Table::new(header);
     let mut scope_rows = scopes(communities).into_iter().skip(1).collect::<Vec<_>>();
-    let unassigned: Vec<usize> =
-        communities.partition.membership.iter().enumerate().filter(|(_, &c)| c == 0).map(|(row, _)| row).collect();
+    let unassigned: Vec<usize> = communities
+        .partition
+        .membership
+        .iter()
+        .enumerate()
+        .filter(|(_, &c)| c == 0)
+        .map(|(row, _)| row)
+        .collect();
     if !unassigned.is_empty() {
         scope_rows.push(("0".to_string(), unassigned));
     }
@@ -585,7 +649,11 @@ fn write_tables(
             comparison.count_a.to_string(),
             comparison.count_b.to_string(),
             if comparison.written { "yes" } else { "no" }.to_string(),
-            if comparison.written { comparison.significant_features.to_string() } else { MISSING.to_string() },
+            if comparison.written {
+                comparison.significant_features.to_string()
+            } else {
+                MISSING.to_string()
+            },
             format_number(comparison.peak_t),
             if comparison.peak.is_empty() { MISSING.to_string() } else { comparison.peak.clone() },
             comparison.reason.clone().unwrap_or_else(|| MISSING.to_string()),
@@ -606,7 +674,8 @@ fn write_npy(path: &Path, values: &ndarray::Array2<f32>) -> Result<(), Error> {
 fn write_json(path: &Path, value: &impl serde::Serialize) -> Result<(), Error> {
     let text = serde_json::to_string_pretty(value)
         .map_err(|error| WriteError::Encode { path: path.to_path_buf(), message: error.to_string() })?;
-    std::fs::write(path, text + "\n").map_err(|source| WriteError::Io { path: path.to_path_buf(), source }.into())
+    std::fs::write(path, text + "\n")
+        .map_err(|source| WriteError::Io { path: path.to_path_buf(), source }.into())
 }
 
 /// The BIDS derivative dataset description (BIDS v1.11.1: Name, BIDSVersion, DatasetType,
@@ -635,13 +704,20 @@ fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>
     let mut seen = BTreeMap::new();
     for (id, source) in cohort.participant_ids.iter().zip(&cohort.sources) {
         // A stacked .npy holds every participant: digest it once.
-        seen.entry(source.path.clone()).or_insert_with(|| if source.stack_index.is_some() { String::new() } else { id.clone() });
+        seen.entry(source.path.clone()).or_insert_with(|| {
+            if source.stack_index.is_some() {
+                String::new()
+            } else {
+                id.clone()
+            }
+        });
     }
     files.extend(seen.into_iter().map(|(path, id)| (id, path)));
     files
         .par_iter()
         .map(|(id, path)| {
-            let (sha256, bytes) = file_sha256(path).map_err(|source| WriteError::Io { path: path.clone(), source })?;
+            let (sha256, bytes) =
+                file_sha256(path).map_err(|source| WriteError::Io { path: path.clone(), source })?;
             Ok(InputDigest { participant_id: id.clone(), path: path.display().to_string(), bytes, sha256 })
         })
         .collect()
@@ -658,13 +734,17 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
     let started = Instant::now();
     // The demo folder itself is not staged: each cohort and each result inside it is written
     // whole (staged and renamed), so the paths recorded in the results are the final ones.
-    if options.out.is_dir() && std::fs::read_dir(&options.out).map(|mut e| e.next().is_some()).unwrap_or(false) {
+    if options.out.is_dir()
+        && std::fs::read_dir(&options.out).map(|mut e| e.next().is_some()).unwrap_or(false)
+    {
         if !options.force {
             return Err(WriteError::Exists { path: options.out.clone() }.into());
         }
-        std::fs::remove_dir_all(&options.out).map_err(|source| WriteError::Io { path: options.out.clone(), source })?;
+        std::fs::remove_dir_all(&options.out)
+            .map_err(|source| WriteError::Io { path: options.out.clone(), source })?;
     }
-    std::fs::create_dir_all(&options.out).map_err(|source| WriteError::Io { path: options.out.clone(), source })?;
+    std::fs::create_dir_all(&options.out)
+        .map_err(|source| WriteError::Io { path: options.out.clone(), source })?;
     let mut scenario = match &options.scenario {
         Some(path) => Scenario::from_toml_file(path)?,
         None => Scenario::default(),
@@ -687,7 +767,8 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
         } else {
             crate::demo::write_seedmap_cohort(&scenario, staged_inputs.path())?
         };
-        let atlas_table = if kind == "matrices" && scenario.region_count == crate::demo::atlas_regions().len() {
+        let atlas_table = if kind == "matrices" && scenario.region_count == crate::demo::atlas_regions().len()
+        {
             crate::demo::write_atlas(&staged_inputs.path().join("atlas"))?;
             Some(inputs_dir.join("atlas").join("northfield100_regions.tsv"))
         } else {

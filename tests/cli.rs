@@ -12,7 +12,10 @@ fn strata(args: &[&str], cwd: &Path) -> Output {
 }
 
 fn text(output: &Output) -> (String, String) {
-    (String::from_utf8_lossy(&output.stdout).into_owned(), String::from_utf8_lossy(&output.stderr).into_owned())
+    (
+        String::from_utf8_lossy(&output.stdout).into_owned(),
+        String::from_utf8_lossy(&output.stderr).into_owned(),
+    )
 }
 
 /// A small valid matrix cohort: `count` participants, 6 regions, alternating diagnoses.
@@ -21,7 +24,11 @@ fn matrix_cohort(dir: &Path, count: usize) -> Vec<PathBuf> {
     let mut paths = Vec::new();
     for index in 0..count {
         let id = format!("sub-{:02}", index + 1);
-        table.push_str(&format!("{id}\t{}\t{}\n", if index % 2 == 0 { "insomnia" } else { "control" }, 12 + index));
+        table.push_str(&format!(
+            "{id}\t{}\t{}\n",
+            if index % 2 == 0 { "insomnia" } else { "control" },
+            12 + index
+        ));
         let mut matrix = Array2::<f32>::eye(6);
         for i in 0..6 {
             for j in (i + 1)..6 {
@@ -38,7 +45,7 @@ fn matrix_cohort(dir: &Path, count: usize) -> Vec<PathBuf> {
     paths
 }
 
-fn run_args<'a>(out: &'a str) -> Vec<&'a str> {
+fn run_args(out: &str) -> Vec<&str> {
     vec![
         "run",
         "--inputs",
@@ -64,7 +71,10 @@ fn expect_failure(dir: &Path, args: &[&str], code: i32, fragments: &[&str]) {
     }
     assert!(!stderr.contains("panicked"), "{stderr}");
     assert!(!dir.join("out").exists(), "nothing may be written on failure");
-    let partial = std::fs::read_dir(dir).unwrap().flatten().any(|entry| entry.file_name().to_string_lossy().contains("strata-partial"));
+    let partial = std::fs::read_dir(dir)
+        .unwrap()
+        .flatten()
+        .any(|entry| entry.file_name().to_string_lossy().contains("strata-partial"));
     assert!(!partial, "no staging folder may be left behind");
 }
 
@@ -84,7 +94,15 @@ fn demo_recovers_planted_subgroups() {
     assert!(ari >= 0.9, "{stdout}");
     assert!(stdout.contains("research software"));
     let results = dir.path().join("demo/results-matrices");
-    for file in ["participants.tsv", "communities.tsv", "sweep.tsv", "comparisons.tsv", "similarity.npy", "provenance.json", "dataset_description.json"] {
+    for file in [
+        "participants.tsv",
+        "communities.tsv",
+        "sweep.tsv",
+        "comparisons.tsv",
+        "similarity.npy",
+        "provenance.json",
+        "dataset_description.json",
+    ] {
         assert!(results.join(file).exists(), "{file} missing");
     }
     // Refuses to overwrite without --force.
@@ -99,8 +117,23 @@ fn run_on_the_committed_small_cohort() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("results");
     let output = Command::new(env!("CARGO_BIN_EXE_strata"))
-        .args(["run", "--inputs", "demo-data/small-matrices/matrices/sub-*", "--participants", "demo-data/small-matrices/participants.tsv"])
-        .args(["--group-column", "diagnosis", "--contrast", "insomnia,control", "--atlas", "atlases/northfield100/northfield100_regions.tsv", "--quiet", "--out"])
+        .args([
+            "run",
+            "--inputs",
+            "demo-data/small-matrices/matrices/sub-*",
+            "--participants",
+            "demo-data/small-matrices/participants.tsv",
+        ])
+        .args([
+            "--group-column",
+            "diagnosis",
+            "--contrast",
+            "insomnia,control",
+            "--atlas",
+            "atlases/northfield100/northfield100_regions.tsv",
+            "--quiet",
+            "--out",
+        ])
         .arg(&out)
         .current_dir(root)
         .output()
@@ -114,12 +147,15 @@ fn run_on_the_committed_small_cohort() {
     assert_eq!(header.last(), Some(&"community"));
     assert_eq!(table.lines().count(), 25);
     // BIDS v1.11.1 derivative dataset_description: Name, BIDSVersion, DatasetType, GeneratedBy[].Name.
-    let description: serde_json::Value = serde_json::from_str(&std::fs::read_to_string(out.join("dataset_description.json")).unwrap()).unwrap();
+    let description: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("dataset_description.json")).unwrap())
+            .unwrap();
     assert!(description["Name"].is_string());
     assert_eq!(description["BIDSVersion"], "1.11.1");
     assert_eq!(description["DatasetType"], "derivative");
     assert_eq!(description["GeneratedBy"][0]["Name"], "strata");
-    let t: Array2<f32> = ndarray_npy::read_npy(out.join("maps/comm-all_contrast-insomniaVsControl_t.npy")).unwrap();
+    let t: Array2<f32> =
+        ndarray_npy::read_npy(out.join("maps/comm-all_contrast-insomniaVsControl_t.npy")).unwrap();
     assert_eq!(t.dim(), (100, 100));
     assert_eq!(t, t.t());
 }
@@ -132,14 +168,32 @@ fn results_do_not_depend_on_thread_count() {
     for threads in ["1", "2"] {
         let out = dir.path().join(format!("t{threads}"));
         let output = Command::new(env!("CARGO_BIN_EXE_strata"))
-            .args(["run", "--inputs", "demo-data/small-matrices/matrices/sub-*", "--participants", "demo-data/small-matrices/participants.tsv"])
-            .args(["--group-column", "diagnosis", "--contrast", "insomnia,control", "--quiet", "--threads", threads, "--out"])
+            .args([
+                "run",
+                "--inputs",
+                "demo-data/small-matrices/matrices/sub-*",
+                "--participants",
+                "demo-data/small-matrices/participants.tsv",
+            ])
+            .args([
+                "--group-column",
+                "diagnosis",
+                "--contrast",
+                "insomnia,control",
+                "--quiet",
+                "--threads",
+                threads,
+                "--out",
+            ])
             .arg(&out)
             .current_dir(root)
             .output()
             .unwrap();
         assert!(output.status.success(), "{}", text(&output).1);
-        tables.push((std::fs::read(out.join("participants.tsv")).unwrap(), std::fs::read(out.join("similarity.npy")).unwrap()));
+        tables.push((
+            std::fs::read(out.join("participants.tsv")).unwrap(),
+            std::fs::read(out.join("similarity.npy")).unwrap(),
+        ));
     }
     assert_eq!(tables[0], tables[1]);
 }
@@ -149,7 +203,12 @@ fn table_participant_without_file() {
     let dir = tempfile::tempdir().unwrap();
     let paths = matrix_cohort(dir.path(), 6);
     std::fs::remove_file(&paths[2]).unwrap();
-    expect_failure(dir.path(), &run_args("out"), 3, &["participants.tsv", "1 participant(s) in the table have no input file: sub-03"]);
+    expect_failure(
+        dir.path(),
+        &run_args("out"),
+        3,
+        &["participants.tsv", "1 participant(s) in the table have no input file: sub-03"],
+    );
 }
 
 #[test]
@@ -176,7 +235,12 @@ fn unreadable_matrix_files() {
     matrix[[0, 1]] = 0.5;
     matrix[[1, 0]] = 0.2;
     ndarray_npy::write_npy(dir.path().join("sub-04_conn.npy"), &matrix).unwrap();
-    expect_failure(dir.path(), &run_args("out"), 3, &["participant sub-04", "not symmetric: entry (1, 2) = 0.5"]);
+    expect_failure(
+        dir.path(),
+        &run_args("out"),
+        3,
+        &["participant sub-04", "not symmetric: entry (1, 2) = 0.5"],
+    );
     // Another R.
     ndarray_npy::write_npy(dir.path().join("sub-04_conn.npy"), &Array2::<f32>::eye(7)).unwrap();
     expect_failure(dir.path(), &run_args("out"), 3, &["participant sub-04: 7 regions but", "has 6"]);
@@ -191,11 +255,21 @@ fn unreadable_matrix_files() {
     matrix[[0, 5]] = 1.7;
     matrix[[5, 0]] = 1.7;
     ndarray_npy::write_npy(dir.path().join("sub-04_conn.npy"), &matrix).unwrap();
-    expect_failure(dir.path(), &run_args("out"), 3, &["participant sub-04", "value 1.7", "outside [-1, 1]", "--values z"]);
+    expect_failure(
+        dir.path(),
+        &run_args("out"),
+        3,
+        &["participant sub-04", "value 1.7", "outside [-1, 1]", "--values z"],
+    );
     // Constant participant (every off-diagonal value equal).
     let constant = Array2::<f32>::from_elem((6, 6), 0.3);
     ndarray_npy::write_npy(dir.path().join("sub-04_conn.npy"), &constant).unwrap();
-    expect_failure(dir.path(), &run_args("out"), 3, &["participant sub-04: all 15 features have the same value"]);
+    expect_failure(
+        dir.path(),
+        &run_args("out"),
+        3,
+        &["participant sub-04: all 15 features have the same value"],
+    );
     // Not a .npy at all.
     std::fs::write(dir.path().join("sub-04_conn.npy"), b"garbage").unwrap();
     expect_failure(dir.path(), &run_args("out"), 3, &["sub-04_conn.npy", "not a valid .npy file"]);
@@ -207,10 +281,20 @@ fn group_column_and_contrast_must_exist() {
     matrix_cohort(dir.path(), 6);
     let mut args = run_args("out");
     args[6] = "dx";
-    expect_failure(dir.path(), &args, 2, &["--group-column", "no column 'dx'", "participant_id, diagnosis, age"]);
+    expect_failure(
+        dir.path(),
+        &args,
+        2,
+        &["--group-column", "no column 'dx'", "participant_id, diagnosis, age"],
+    );
     let mut args = run_args("out");
     args[8] = "insomnia,healthy";
-    expect_failure(dir.path(), &args, 2, &["--contrast", "level 'healthy' does not occur", "levels found: insomnia, control"]);
+    expect_failure(
+        dir.path(),
+        &args,
+        2,
+        &["--contrast", "level 'healthy' does not occur", "levels found: insomnia, control"],
+    );
 }
 
 #[test]
@@ -240,7 +324,9 @@ fn map_cohort(dir: &Path) {
     for index in 0..6usize {
         let id = format!("sub-{:02}", index + 1);
         table.push_str(&format!("{id}\t{}\n", if index % 2 == 0 { "insomnia" } else { "control" }));
-        let volume = Array3::from_shape_fn((4, 4, 4), |(i, j, k)| (((index * 5 + i * 3 + j * 7 + k) % 13) as f32 - 6.0) / 10.0 + 0.05);
+        let volume = Array3::from_shape_fn((4, 4, 4), |(i, j, k)| {
+            (((index * 5 + i * 3 + j * 7 + k) % 13) as f32 - 6.0) / 10.0 + 0.05
+        });
         write_map(&dir.join(format!("{id}_seedmap.nii.gz")), &volume);
     }
     std::fs::write(dir.join("participants.tsv"), table).unwrap();
@@ -271,16 +357,31 @@ fn bad_seed_maps() {
     let volume4 = Array4::<f32>::from_elem((4, 4, 4, 3), 0.2);
     let hdr = header(&[4, 4, 4, 3]);
     nifti::writer::WriterOptions::new(&target).reference_header(&hdr).write_nifti(&volume4).unwrap();
-    expect_failure(dir.path(), &map_args("out"), 3, &["participant sub-03", "image of shape 4x4x4x3", "expected one 3D seed map"]);
+    expect_failure(
+        dir.path(),
+        &map_args("out"),
+        3,
+        &["participant sub-03", "image of shape 4x4x4x3", "expected one 3D seed map"],
+    );
     // Another grid.
     write_map(&target, &Array3::from_elem((4, 4, 5), 0.2));
-    expect_failure(dir.path(), &map_args("out"), 3, &["participant sub-03: grid 4x4x5 differs from the first map's 4x4x4", "resample"]);
+    expect_failure(
+        dir.path(),
+        &map_args("out"),
+        3,
+        &["participant sub-03: grid 4x4x5 differs from the first map's 4x4x4", "resample"],
+    );
     // Another affine.
     let volume = Array3::from_shape_fn((4, 4, 4), |(i, j, k)| ((i + j + k) as f32) / 20.0 + 0.01);
     let mut hdr = header(&[4, 4, 4]);
     hdr.srow_x[3] += 2.0;
     strata::demo::write_volume_f32(&target, &hdr, &volume).unwrap();
-    expect_failure(dir.path(), &map_args("out"), 3, &["participant sub-03: affine", "differs from the first map's"]);
+    expect_failure(
+        dir.path(),
+        &map_args("out"),
+        3,
+        &["participant sub-03: affine", "differs from the first map's"],
+    );
     // Every voxel zero in one participant: the implicit mask is empty... only if it is the
     // first; here a blank map leaves no voxel valid in every participant.
     write_map(&target, &Array3::zeros((4, 4, 4)));
@@ -293,7 +394,12 @@ fn bad_seed_maps() {
     write_map(&dir.path().join("mask.nii.gz"), &Array3::from_elem((4, 4, 4), 1.0));
     let mut args = map_args("out");
     args.extend(["--mask", "mask.nii.gz"]);
-    expect_failure(dir.path(), &args, 3, &["participant sub-03: value NaN at voxel (1, 2, 3) inside the mask"]);
+    expect_failure(
+        dir.path(),
+        &args,
+        3,
+        &["participant sub-03: value NaN at voxel (1, 2, 3) inside the mask"],
+    );
     // An empty mask.
     std::fs::write(&target, &good).unwrap();
     write_map(&dir.path().join("mask.nii.gz"), &Array3::zeros((4, 4, 4)));

@@ -12,8 +12,11 @@ use strata::similarity::pearson;
 use strata::validation::{adjusted_rand_index, normalized_mutual_information};
 
 fn reference() -> Value {
-    let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/communities_reference.json"))
-        .expect("tests/data/communities_reference.json (made by tests/data/generators/communities.py)");
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/data/communities_reference.json"
+    ))
+    .expect("tests/data/communities_reference.json (made by tests/data/generators/communities.py)");
     serde_json::from_str(&text).unwrap()
 }
 
@@ -22,7 +25,13 @@ fn graph(edges: &Value, nodes: usize) -> ParticipantGraph {
         .as_array()
         .unwrap()
         .iter()
-        .map(|edge| (edge[0].as_u64().unwrap() as usize, edge[1].as_u64().unwrap() as usize, edge[2].as_f64().unwrap()))
+        .map(|edge| {
+            (
+                edge[0].as_u64().unwrap() as usize,
+                edge[1].as_u64().unwrap() as usize,
+                edge[2].as_f64().unwrap(),
+            )
+        })
         .collect();
     ParticipantGraph::from_edges(nodes, &edges)
 }
@@ -46,8 +55,14 @@ fn modularity_matches_networkx() {
     let ring = graph(&reference["ring_of_cliques_edges"], 150);
     let singles: Vec<usize> = (0..150).map(|node| node / 5).collect();
     let pairs: Vec<usize> = (0..150).map(|node| node / 10).collect();
-    assert!((modularity(&ring, &singles, 1.0) - reference["ring_of_cliques_q_singles"].as_f64().unwrap()).abs() < 1e-12);
-    assert!((modularity(&ring, &pairs, 1.0) - reference["ring_of_cliques_q_pairs"].as_f64().unwrap()).abs() < 1e-12);
+    assert!(
+        (modularity(&ring, &singles, 1.0) - reference["ring_of_cliques_q_singles"].as_f64().unwrap()).abs()
+            < 1e-12
+    );
+    assert!(
+        (modularity(&ring, &pairs, 1.0) - reference["ring_of_cliques_q_pairs"].as_f64().unwrap()).abs()
+            < 1e-12
+    );
 }
 
 #[test]
@@ -121,10 +136,19 @@ fn consensus_recovers_planted_subgroups_even_over_a_wide_sweep() {
     let scenario = strata::demo::Scenario::default();
     let (features, truth) = planted(&scenario);
     let similarity = pearson(&features);
-    for densities in [strata::config::DEFAULT_DENSITIES.to_vec(), (1..=15).map(|k| 0.02 * k as f64).collect()] {
+    for densities in [strata::config::DEFAULT_DENSITIES.to_vec(), (1..=15).map(|k| 0.02 * k as f64).collect()]
+    {
         let result = detect(&similarity, &options(densities.clone())).unwrap();
         let ari = adjusted_rand_index(&truth, &result.partition.membership);
-        assert!(ari >= 0.9, "sweep {densities:?}: ARI {ari}, sweep rows {:?}", result.densities.iter().map(|d| (d.density, d.community_count, d.modularity, d.consensus_weight)).collect::<Vec<_>>());
+        assert!(
+            ari >= 0.9,
+            "sweep {densities:?}: ARI {ari}, sweep rows {:?}",
+            result
+                .densities
+                .iter()
+                .map(|d| (d.density, d.community_count, d.modularity, d.consensus_weight))
+                .collect::<Vec<_>>()
+        );
         assert_eq!(result.partition.community_count(), 3);
     }
 }
@@ -146,13 +170,12 @@ fn detection_is_identical_at_any_thread_count() {
     let scenario = strata::demo::Scenario { participant_count: 60, ..strata::demo::Scenario::default() };
     let (features, _) = planted(&scenario);
     let similarity = pearson(&features);
-    let run = |threads| {
-        rayon::ThreadPoolBuilder::new()
-            .num_threads(threads)
-            .build()
-            .unwrap()
-            .install(|| detect(&similarity, &options(strata::config::DEFAULT_DENSITIES.to_vec())).unwrap())
-    };
+    let run =
+        |threads| {
+            rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap().install(|| {
+                detect(&similarity, &options(strata::config::DEFAULT_DENSITIES.to_vec())).unwrap()
+            })
+        };
     let (one, two) = (run(1), run(2));
     assert_eq!(one.partition, two.partition);
     assert_eq!(one.coassignment, two.coassignment);

@@ -7,8 +7,9 @@ use strata::features::FeatureMatrix;
 use strata::similarity::pearson;
 
 fn reference() -> (FeatureMatrix, Vec<f64>, usize) {
-    let text = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/similarity_reference.json"))
-        .expect("tests/data/similarity_reference.json (made by tests/data/generators/similarity.py)");
+    let text =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/similarity_reference.json"))
+            .expect("tests/data/similarity_reference.json (made by tests/data/generators/similarity.py)");
     let json: Value = serde_json::from_str(&text).unwrap();
     let participants = json["participants"].as_u64().unwrap() as usize;
     let features = json["features"].as_u64().unwrap() as usize;
@@ -39,8 +40,9 @@ fn pearson_is_identical_at_any_thread_count() {
     // Common practice for reproducible parallel code: the same bits with 1 and 2 workers.
     let participants = 300;
     let features = 9000;
-    let values: Vec<f32> =
-        (0..participants * features).map(|index| ((index as u64 * 2_654_435_761) % 10_007) as f32 / 10_007.0).collect();
+    let values: Vec<f32> = (0..participants * features)
+        .map(|index| ((index as u64 * 2_654_435_761) % 10_007) as f32 / 10_007.0)
+        .collect();
     let matrix = FeatureMatrix { values: Array2::from_shape_vec((participants, features), values).unwrap() };
     let one = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap().install(|| pearson(&matrix));
     let two = rayon::ThreadPoolBuilder::new().num_threads(2).build().unwrap().install(|| pearson(&matrix));

@@ -154,10 +154,10 @@ fn multi_feature_matrix_matches_scipy() {
     // The pooled mean of all rows equals the count-weighted group means (identity).
     let all: Vec<usize> = (0..rows).collect();
     let pooled = group_mean(&matrix, &all);
-    for feature in 0..cols {
-        let expected =
-            (8.0 * f64::from(result.mean_a[feature]) + 12.0 * f64::from(result.mean_b[feature])) / 20.0;
-        assert_relative_eq!(f64::from(pooled[feature]), expected, max_relative = 1e-6);
+    assert_eq!(pooled.len(), cols);
+    for ((&mean, &a), &b) in pooled.iter().zip(&result.mean_a).zip(&result.mean_b) {
+        let expected = (8.0 * f64::from(a) + 12.0 * f64::from(b)) / 20.0;
+        assert_relative_eq!(f64::from(mean), expected, max_relative = 1e-6);
     }
 }
 

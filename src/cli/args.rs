@@ -197,7 +197,13 @@ pub struct DemoOptions {
 impl DemoArgs {
     /// Builds the demo options.
     pub fn into_options(self) -> Result<DemoOptions, ConfigError> {
-        Ok(DemoOptions { out: self.out, force: self.force, kind: self.kind, scenario: self.scenario, seed: self.seed })
+        Ok(DemoOptions {
+            out: self.out,
+            force: self.force,
+            kind: self.kind,
+            scenario: self.scenario,
+            seed: self.seed,
+        })
     }
 }
 

@@ -79,8 +79,18 @@ pub fn coassignment(partitions: &[(Vec<usize>, f64)], node_count: usize) -> Arra
     matrix
 }
 
+/// One Louvain trial: its labels and modularity.
+type Trial = (Vec<usize>, f64);
+
 /// Seeded trials of Louvain; returns every trial's labels and modularity, in trial order.
-fn trials(graph: &ParticipantGraph, resolution: f64, count: usize, seed: u64, stage: &str, index: u64) -> Vec<(Vec<usize>, f64)> {
+fn trials(
+    graph: &ParticipantGraph,
+    resolution: f64,
+    count: usize,
+    seed: u64,
+    stage: &str,
+    index: u64,
+) -> Vec<(Vec<usize>, f64)> {
     (0..count as u64)
         .into_par_iter()
         .map(|trial| {
@@ -145,30 +155,62 @@ fn structured(labels: &[usize], min_size: usize) -> bool {
 ///
 /// # References
 /// Blondel et al. 2008 (Louvain); Lancichinetti & Fortunato 2012, Sci Rep 2:336 (consensus).
-pub fn detect(similarity: &SimilarityMatrix, options: &CommunityOptions) -> Result<CommunityResult, CommunityError> {
+pub fn detect(
+    similarity: &SimilarityMatrix,
+    options: &CommunityOptions,
+) -> Result<CommunityResult, CommunityError> {
+    detect_with_weighting(similarity, options, DensityWeighting::Structured)
+}
+
+/// How densities of the sweep are weighted in the consensus.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DensityWeighting {
+    /// strata's rule: weight = modularity, densities without structure left out (the default).
+    Structured,
+    /// Every density with at least one edge weighs the same: the plain co-assignment consensus,
+    /// kept for comparison in docs/methods.md (it falls into the collapse trap).
+    Uniform,
+}
+
+/// [`detect`] with a chosen density weighting.
+///
+/// # Errors
+/// As [`detect`].
+pub fn detect_with_weighting(
+    similarity: &SimilarityMatrix,
+    options: &CommunityOptions,
+    weighting: DensityWeighting,
+) -> Result<CommunityResult, CommunityError> {
     let node_count = similarity.participant_count();
     let ranked = RankedPairs::new(similarity);
     if ranked.positive_pairs() == 0 {
         return Err(CommunityError::NoEdges);
     }
-    let sweep: Vec<(DensityResult, Vec<(Vec<usize>, f64)>)> = options
+    let sweep: Vec<(DensityResult, Vec<Trial>)> = options
         .densities
         .par_iter()
         .enumerate()
         .map(|(index, &density)| {
             let graph = ranked.graph_at(density);
-            let results = trials(&graph, options.resolution, options.trials, options.seed, "sweep", index as u64);
+            let results =
+                trials(&graph, options.resolution, options.trials, options.seed, "sweep", index as u64);
             let chosen = best(&results);
             let (labels, quality) = results[chosen].clone();
             let community_count = renumber(&labels).1;
-            let has_structure = structured(&labels, options.min_community_size) && quality >= DENSITY_MODULARITY_FLOOR;
+            let has_structure =
+                structured(&labels, options.min_community_size) && quality >= DENSITY_MODULARITY_FLOOR;
             let row = DensityResult {
                 density,
                 edge_count: graph.edge_count(),
                 isolated: graph.isolated(),
                 community_count,
                 modularity: quality,
-                consensus_weight: if has_structure { quality } else { 0.0 },
+                consensus_weight: match weighting {
+                    DensityWeighting::Structured if has_structure => quality,
+                    DensityWeighting::Structured => 0.0,
+                    DensityWeighting::Uniform if graph.edge_count() > 0 => 1.0,
+                    DensityWeighting::Uniform => 0.0,
+                },
                 membership: labels,
             };
             (row, results)
@@ -202,8 +244,14 @@ pub fn detect(similarity: &SimilarityMatrix, options: &CommunityOptions) -> Resu
     while iterations < MAX_CONSENSUS_ITERATIONS {
         iterations += 1;
         let graph = graph_from_coassignment(&matrix, options.consensus_threshold);
-        let results =
-            trials(&graph, options.resolution, CONSENSUS_TRIALS, options.seed, "consensus", iterations as u64);
+        let results = trials(
+            &graph,
+            options.resolution,
+            CONSENSUS_TRIALS,
+            options.seed,
+            "consensus",
+            iterations as u64,
+        );
         labels = results[best(&results)].0.clone();
         let first = renumber(&results[0].0).0;
         let unanimous = results.iter().all(|(other, _)| renumber(other).0 == first);

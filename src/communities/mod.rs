@@ -8,7 +8,10 @@ mod consensus;
 mod louvain;
 mod quality;
 
-pub use consensus::{coassignment, detect, DENSITY_MODULARITY_FLOOR, MIN_ASSIGNED_FRACTION};
+pub use consensus::{
+    coassignment, detect, detect_with_weighting, DensityWeighting, DENSITY_MODULARITY_FLOOR,
+    MIN_ASSIGNED_FRACTION,
+};
 pub use louvain::{louvain, renumber};
 pub use quality::modularity;
 

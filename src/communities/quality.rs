@@ -41,9 +41,5 @@ pub fn modularity(graph: &ParticipantGraph, membership: &[usize], resolution: f6
         inside[community] += graph.self_loops[node];
         strength[community] += 2.0 * graph.self_loops[node];
     }
-    inside
-        .iter()
-        .zip(&strength)
-        .map(|(&l, &d)| l / total - resolution * (d / (2.0 * total)).powi(2))
-        .sum()
+    inside.iter().zip(&strength).map(|(&l, &d)| l / total - resolution * (d / (2.0 * total)).powi(2)).sum()
 }

@@ -106,7 +106,8 @@ pub fn build_features(cohort: &Cohort, options: &FeatureOptions) -> Result<Featu
 
 fn check_not_constant(cohort: &Cohort, matrix: &FeatureMatrix) -> Result<(), FeatureError> {
     let width = matrix.feature_count().max(1);
-    let constant = matrix.row_major().par_chunks(width).position_first(|row| row.iter().all(|&value| value == row[0]));
+    let constant =
+        matrix.row_major().par_chunks(width).position_first(|row| row.iter().all(|&value| value == row[0]));
     if let Some(row) = constant {
         return Err(FeatureError::ConstantParticipant {
             path: cohort.sources[row].path.clone(),
@@ -121,7 +122,13 @@ fn voxel_ijk(flat: usize, dim: [usize; 3]) -> (usize, usize, usize) {
     (flat % dim[0], (flat / dim[0]) % dim[1], flat / (dim[0] * dim[1]))
 }
 
-fn check_grid(volume: &Volume, reference: &Volume, path: &Path, participant: &str, first: &Path) -> Result<(), FeatureError> {
+fn check_grid(
+    volume: &Volume,
+    reference: &Volume,
+    path: &Path,
+    participant: &str,
+    first: &Path,
+) -> Result<(), FeatureError> {
     if volume.dim != reference.dim {
         let show = |d: [usize; 3]| format!("{}x{}x{}", d[0], d[1], d[2]);
         return Err(FeatureError::GridMismatch {
@@ -163,8 +170,13 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
                     first: first_path.clone(),
                 });
             }
-            let voxels: Vec<usize> =
-                mask.values.iter().enumerate().filter(|(_, &v)| v != 0.0 && v.is_finite()).map(|(i, _)| i).collect();
+            let voxels: Vec<usize> = mask
+                .values
+                .iter()
+                .enumerate()
+                .filter(|(_, &v)| v != 0.0 && v.is_finite())
+                .map(|(i, _)| i)
+                .collect();
             if voxels.is_empty() {
                 return Err(FeatureError::EmptyMask {
                     path: mask_path.clone(),
@@ -177,7 +189,13 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
     };
     let candidates: Vec<usize> = match &given_mask {
         Some(voxels) => voxels.clone(),
-        None => first.values.iter().enumerate().filter(|(_, &v)| v != 0.0 && v.is_finite()).map(|(i, _)| i).collect(),
+        None => first
+            .values
+            .iter()
+            .enumerate()
+            .filter(|(_, &v)| v != 0.0 && v.is_finite())
+            .map(|(i, _)| i)
+            .collect(),
     };
     if candidates.is_empty() {
         return Err(FeatureError::EmptyMask {
@@ -245,8 +263,12 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
         clipped_values += outcome?;
     }
     // Keep the candidate voxels valid in every participant (NaN marks an invalid value).
-    let keep: Vec<bool> = (0..width).into_par_iter().map(|col| (0..participants).all(|row| !values[row * width + col].is_nan())).collect();
-    let mask: Vec<usize> = candidates.iter().zip(&keep).filter(|(_, &k)| k).map(|(&voxel, _)| voxel).collect();
+    let keep: Vec<bool> = (0..width)
+        .into_par_iter()
+        .map(|col| (0..participants).all(|row| !values[row * width + col].is_nan()))
+        .collect();
+    let mask: Vec<usize> =
+        candidates.iter().zip(&keep).filter(|(_, &k)| k).map(|(&voxel, _)| voxel).collect();
     if mask.is_empty() {
         return Err(FeatureError::EmptyMask {
             path: first_path.clone(),
@@ -285,7 +307,8 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
         fisher_z_clip: FISHER_Z_CLIP,
     };
     let matrix = FeatureMatrix {
-        values: Array2::from_shape_vec((participants, kept), values).expect("rows x kept values by construction"),
+        values: Array2::from_shape_vec((participants, kept), values)
+            .expect("rows x kept values by construction"),
     };
     Ok(Features { matrix, space, summary })
 }
@@ -299,7 +322,11 @@ fn matrix_row(
     path: &Path,
     participant: &str,
 ) -> Result<usize, FeatureError> {
-    let bad = |problem: String| FeatureError::BadValue { path: path.to_path_buf(), participant: participant.to_string(), problem };
+    let bad = |problem: String| FeatureError::BadValue {
+        path: path.to_path_buf(),
+        participant: participant.to_string(),
+        problem,
+    };
     let mut clipped = 0;
     let mut index = 0;
     for i in 0..regions {
@@ -343,7 +370,10 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
             return Err(FeatureError::BadValue {
                 path: path.to_path_buf(),
                 participant: participant.to_string(),
-                problem: format!("matrix of shape {}x{} is not square; expected R x R region connectivity", shape.0, shape.1),
+                problem: format!(
+                    "matrix of shape {}x{} is not square; expected R x R region connectivity",
+                    shape.0, shape.1
+                ),
             });
         }
         Ok(())
@@ -415,5 +445,9 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
         clipped_values,
         fisher_z_clip: FISHER_Z_CLIP,
     };
-    Ok(Features { matrix, space: FeatureSpace::Edges(EdgeSpace { region_count: regions, region_names }), summary })
+    Ok(Features {
+        matrix,
+        space: FeatureSpace::Edges(EdgeSpace { region_count: regions, region_names }),
+        summary,
+    })
 }

@@ -40,6 +40,8 @@ impl FeatureMatrix {
 }
 
 /// Where each feature came from, and how a length-F vector is written back in the user's format.
+// One FeatureSpace exists per run; boxing the NIfTI header would buy nothing.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Clone)]
 pub enum FeatureSpace {
     /// Masked voxels of a 3D grid.
@@ -98,4 +100,3 @@ impl FeatureSpace {
         }
     }
 }
-

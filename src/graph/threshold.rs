@@ -49,8 +49,10 @@ impl RankedPairs {
     /// The weighted graph of the strongest pairs at `density`.
     pub fn graph_at(&self, density: f64) -> ParticipantGraph {
         let kept = self.edge_count_at(density);
-        let edges: Vec<(usize, usize, f64)> =
-            self.pairs[..kept].iter().map(|&(value, i, j)| (i as usize, j as usize, f64::from(value))).collect();
+        let edges: Vec<(usize, usize, f64)> = self.pairs[..kept]
+            .iter()
+            .map(|&(value, i, j)| (i as usize, j as usize, f64::from(value)))
+            .collect();
         ParticipantGraph::from_edges(self.node_count, &edges)
     }
 }
@@ -83,7 +85,12 @@ mod tests {
     #[test]
     fn keeps_strongest_positive_pairs() {
         let similarity = SimilarityMatrix {
-            values: array![[1.0, 0.9, -0.5, 0.1], [0.9, 1.0, 0.3, 0.0], [-0.5, 0.3, 1.0, 0.3], [0.1, 0.0, 0.3, 1.0]],
+            values: array![
+                [1.0, 0.9, -0.5, 0.1],
+                [0.9, 1.0, 0.3, 0.0],
+                [-0.5, 0.3, 1.0, 0.3],
+                [0.1, 0.0, 0.3, 1.0]
+            ],
         };
         // 6 pairs; density 0.5 keeps 3: 0.9 (0,1), then the 0.3 tie broken by index: (1,2), (2,3).
         let graph = proportional_threshold(&similarity, 0.5);

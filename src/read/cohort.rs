@@ -78,7 +78,8 @@ fn name_has_token(path: &Path, token: &str) -> bool {
     name.match_indices(token).any(|(start, _)| {
         let before = name[..start].chars().next_back();
         let after = name[start + token.len()..].chars().next();
-        !before.is_some_and(|c| c.is_ascii_alphanumeric()) && !after.is_some_and(|c| c.is_ascii_alphanumeric())
+        !before.is_some_and(|c| c.is_ascii_alphanumeric())
+            && !after.is_some_and(|c| c.is_ascii_alphanumeric())
     })
 }
 
@@ -102,13 +103,16 @@ fn expand(patterns: &[String]) -> Result<Vec<PathBuf>, ReadError> {
             pattern: pattern.to_string(),
             problem: format!("not a valid glob pattern ({error})"),
         })?;
-        let mut matched: Vec<PathBuf> = entries.filter_map(Result::ok).filter(|path| path.is_file()).collect();
+        let mut matched: Vec<PathBuf> =
+            entries.filter_map(Result::ok).filter(|path| path.is_file()).collect();
         if matched.is_empty() {
             let path = Path::new(pattern);
             let problem = if path.exists() {
-                "is a folder; give a pattern of files inside it, for example 'DIR/sub-*_seedmap.nii.gz'".into()
+                "is a folder; give a pattern of files inside it, for example 'DIR/sub-*_seedmap.nii.gz'"
+                    .into()
             } else {
-                "matched no file; check the path, and quote the pattern so the shell does not expand it".to_string()
+                "matched no file; check the path, and quote the pattern so the shell does not expand it"
+                    .to_string()
             };
             return Err(ReadError::Pattern { pattern: pattern.to_string(), problem });
         }
@@ -175,10 +179,14 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             });
         }
         if table.row_count() < 2 {
-            return Err(ReadError::TooFewParticipants { path: table.path().to_path_buf(), count: table.row_count() });
+            return Err(ReadError::TooFewParticipants {
+                path: table.path().to_path_buf(),
+                count: table.row_count(),
+            });
         }
-        let sources =
-            (0..shape[0]).map(|index| InputSource { path: first.clone(), stack_index: Some(index) }).collect();
+        let sources = (0..shape[0])
+            .map(|index| InputSource { path: first.clone(), stack_index: Some(index) })
+            .collect();
         return Ok(Cohort {
             table: table.clone(),
             participant_ids: table.ids().iter().map(|id| id.to_string()).collect(),
@@ -204,7 +212,8 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     for file in &files {
         let row = match &match_values {
             None => {
-                let label = participant_label(file).ok_or_else(|| ReadError::NoLabel { path: file.clone() })?;
+                let label =
+                    participant_label(file).ok_or_else(|| ReadError::NoLabel { path: file.clone() })?;
                 *row_of_id.get(label.as_str()).ok_or_else(|| ReadError::UnknownParticipant {
                     path: file.clone(),
                     participant: label.clone(),
@@ -250,8 +259,12 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
         }
         file_of_row[row] = Some(file.clone());
     }
-    let missing: Vec<String> =
-        file_of_row.iter().zip(&ids).filter(|(file, _)| file.is_none()).map(|(_, id)| id.to_string()).collect();
+    let missing: Vec<String> = file_of_row
+        .iter()
+        .zip(&ids)
+        .filter(|(file, _)| file.is_none())
+        .map(|(_, id)| id.to_string())
+        .collect();
     if !missing.is_empty() {
         return Err(ReadError::MissingInputs {
             path: table.path().to_path_buf(),
@@ -260,12 +273,19 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
         });
     }
     if table.row_count() < 2 {
-        return Err(ReadError::TooFewParticipants { path: table.path().to_path_buf(), count: table.row_count() });
+        return Err(ReadError::TooFewParticipants {
+            path: table.path().to_path_buf(),
+            count: table.row_count(),
+        });
     }
     Ok(Cohort {
         table: table.clone(),
         participant_ids: ids.iter().map(|id| id.to_string()).collect(),
-        sources: file_of_row.into_iter().flatten().map(|path| InputSource { path, stack_index: None }).collect(),
+        sources: file_of_row
+            .into_iter()
+            .flatten()
+            .map(|path| InputSource { path, stack_index: None })
+            .collect(),
         kind,
     })
 }

@@ -37,7 +37,9 @@ fn read_header_bytes(path: &Path) -> Result<Vec<u8>, ReadError> {
     let mut buffer = vec![0u8; 4096];
     let mut filled = 0;
     while filled < buffer.len() {
-        let read = file.read(&mut buffer[filled..]).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+        let read = file
+            .read(&mut buffer[filled..])
+            .map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
         if read == 0 {
             break;
         }
@@ -56,10 +58,17 @@ fn parse_npy_shape(bytes: &[u8]) -> Option<Vec<usize>> {
     let start = text.find("'shape':")? + "'shape':".len();
     let open = text[start..].find('(')? + start + 1;
     let close = text[open..].find(')')? + open;
-    text[open..close].split(',').map(str::trim).filter(|part| !part.is_empty()).map(|part| part.parse().ok()).collect()
+    text[open..close]
+        .split(',')
+        .map(str::trim)
+        .filter(|part| !part.is_empty())
+        .map(|part| part.parse().ok())
+        .collect()
 }
 
-fn read_npy<T: ReadableElement, D: ndarray::Dimension>(path: &Path) -> Result<ndarray::Array<T, D>, ndarray_npy::ReadNpyError> {
+fn read_npy<T: ReadableElement, D: ndarray::Dimension>(
+    path: &Path,
+) -> Result<ndarray::Array<T, D>, ndarray_npy::ReadNpyError> {
     let file = File::open(path).map_err(ndarray_npy::ReadNpyError::Io)?;
     ndarray::Array::<T, D>::read_npy(BufReader::new(file))
 }
@@ -80,7 +89,11 @@ pub fn read_matrix(path: &Path, participant: &str) -> Result<Array2<f64>, ReadEr
         match read_npy::<f64, Ix2>(path) {
             Ok(matrix) => Ok(matrix),
             Err(_) => read_npy::<f32, Ix2>(path).map(|matrix| matrix.mapv(f64::from)).map_err(|error| {
-                invalid(path, participant, format!("cannot read the array ({error}); save it as float32 or float64 with numpy.save"))
+                invalid(
+                    path,
+                    participant,
+                    format!("cannot read the array ({error}); save it as float32 or float64 with numpy.save"),
+                )
             }),
         }
     } else {
@@ -92,15 +105,20 @@ pub fn read_matrix(path: &Path, participant: &str) -> Result<Array2<f64>, ReadEr
 pub fn read_stack(path: &Path) -> Result<Array3<f64>, ReadError> {
     match read_npy::<f64, ndarray::Ix3>(path) {
         Ok(stack) => Ok(stack),
-        Err(_) => read_npy::<f32, ndarray::Ix3>(path).map(|stack| stack.mapv(f64::from)).map_err(|error| ReadError::Format {
-            path: path.to_path_buf(),
-            problem: format!("cannot read the stacked array ({error}); save it as float32 or float64 with numpy.save"),
+        Err(_) => read_npy::<f32, ndarray::Ix3>(path).map(|stack| stack.mapv(f64::from)).map_err(|error| {
+            ReadError::Format {
+                path: path.to_path_buf(),
+                problem: format!(
+                    "cannot read the stacked array ({error}); save it as float32 or float64 with numpy.save"
+                ),
+            }
         }),
     }
 }
 
 fn read_text_matrix(path: &Path, participant: &str) -> Result<Array2<f64>, ReadError> {
-    let text = std::fs::read_to_string(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+    let text =
+        std::fs::read_to_string(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
     let mut rows: Vec<Vec<f64>> = Vec::new();
     for (line_index, line) in text.lines().enumerate() {
         let line = line.trim();
@@ -139,14 +157,19 @@ fn read_text_matrix(path: &Path, participant: &str) -> Result<Array2<f64>, ReadE
     }
     for (row_index, row) in rows.iter().enumerate() {
         if row.len() != size {
-            return Err(invalid(path, participant, format!(
-                "row {} has {} values but the file has {size} rows; expected a square R x R matrix",
-                row_index + 1,
-                row.len()
-            )));
+            return Err(invalid(
+                path,
+                participant,
+                format!(
+                    "row {} has {} values but the file has {size} rows; expected a square R x R matrix",
+                    row_index + 1,
+                    row.len()
+                ),
+            ));
         }
     }
-    Ok(Array2::from_shape_vec((size, size), rows.into_iter().flatten().collect()).expect("square by construction"))
+    Ok(Array2::from_shape_vec((size, size), rows.into_iter().flatten().collect())
+        .expect("square by construction"))
 }
 
 #[cfg(test)]
@@ -165,7 +188,9 @@ mod tests {
     #[test]
     fn text_matrices_in_three_spellings() {
         let dir = tempfile::tempdir().unwrap();
-        for (name, text) in [("a.csv", "1,0.5\n0.5,1\n"), ("b.tsv", "1\t0.5\n0.5\t1\n"), ("c.txt", "1 0.5\n 0.5   1\n")] {
+        for (name, text) in
+            [("a.csv", "1,0.5\n0.5,1\n"), ("b.tsv", "1\t0.5\n0.5\t1\n"), ("c.txt", "1 0.5\n 0.5   1\n")]
+        {
             let path = dir.path().join(name);
             std::fs::write(&path, text).unwrap();
             let matrix = read_matrix(&path, "sub-01").unwrap();
@@ -175,6 +200,9 @@ mod tests {
         let path = dir.path().join("bad.csv");
         std::fs::write(&path, "1,0.5,0.2\n0.5,1,0.1\n").unwrap();
         let message = read_matrix(&path, "sub-01").unwrap_err().to_string();
-        assert!(message.contains("participant sub-01: row 1 has 3 values but the file has 2 rows"), "{message}");
+        assert!(
+            message.contains("participant sub-01: row 1 has 3 values but the file has 2 rows"),
+            "{message}"
+        );
     }
 }

@@ -37,7 +37,10 @@ pub fn header_affine(header: &NiftiHeader) -> Result<[[f64; 4]; 4], String> {
         header.sform_affine::<f64>()
     } else if header.qform_code > 0 {
         if header.pixdim[1..4].iter().any(|&size| size < 0.0) {
-            return Err("negative voxel size in pixdim with a qform; fix the header (for example with nibabel)".into());
+            return Err(
+                "negative voxel size in pixdim with a qform; fix the header (for example with nibabel)"
+                    .into(),
+            );
         }
         if header.pixdim[0] != 1.0 && header.pixdim[0] != -1.0 && header.pixdim[0] != 0.0 {
             return Err(format!("qfac pixdim[0] = {} is not 1 or -1", header.pixdim[0]));
@@ -45,8 +48,8 @@ pub fn header_affine(header: &NiftiHeader) -> Result<[[f64; 4]; 4], String> {
         header.qform_affine::<f64>()
     } else {
         let mut affine = [[0.0; 4]; 4];
-        for axis in 0..3 {
-            affine[axis][axis] = f64::from(header.pixdim[axis + 1]);
+        for (axis, row) in affine.iter_mut().take(3).enumerate() {
+            row[axis] = f64::from(header.pixdim[axis + 1]);
         }
         affine[3][3] = 1.0;
         return Ok(affine);
@@ -67,7 +70,10 @@ pub fn header_affine(header: &NiftiHeader) -> Result<[[f64; 4]; 4], String> {
 /// (a 4D file with one volume is accepted); a header whose affine cannot be formed.
 pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> {
     if !path.exists() {
-        return Err(ReadError::Io { path: path.to_path_buf(), source: std::io::Error::from(std::io::ErrorKind::NotFound) });
+        return Err(ReadError::Io {
+            path: path.to_path_buf(),
+            source: std::io::Error::from(std::io::ErrorKind::NotFound),
+        });
     }
     // The NIfTI decoder is third-party code fed with user files: a malformed header must become
     // an error naming the file, never a crash.
@@ -78,7 +84,8 @@ pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> 
             ))
         })?;
         let header = object.header().clone();
-        let dims: Vec<usize> = header.dim[1..=(header.dim[0].clamp(1, 7) as usize)].iter().map(|&d| d as usize).collect();
+        let dims: Vec<usize> =
+            header.dim[1..=(header.dim[0].clamp(1, 7) as usize)].iter().map(|&d| d as usize).collect();
         let extra: usize = dims.iter().skip(3).product();
         if dims.len() < 3 || extra > 1 {
             return Err(invalid(path, participant, format!(
@@ -88,7 +95,11 @@ pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> 
         }
         let affine = header_affine(&header).map_err(|problem| invalid(path, participant, problem))?;
         let array = object.into_volume().into_ndarray::<f32>().map_err(|error| {
-            invalid(path, participant, format!("cannot decode the voxel values ({error}); the file may be truncated"))
+            invalid(
+                path,
+                participant,
+                format!("cannot decode the voxel values ({error}); the file may be truncated"),
+            )
         })?;
         let values: Vec<f32> = match array.as_slice_memory_order() {
             Some(slice) => slice.to_vec(),
@@ -96,18 +107,27 @@ pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> 
         };
         let dim = [dims[0], dims[1], dims[2]];
         if values.len() != dim[0] * dim[1] * dim[2] {
-            return Err(invalid(path, participant, format!(
-                "{} voxel values for a {}x{}x{} grid; the file is truncated",
-                values.len(),
-                dim[0],
-                dim[1],
-                dim[2]
-            )));
+            return Err(invalid(
+                path,
+                participant,
+                format!(
+                    "{} voxel values for a {}x{}x{} grid; the file is truncated",
+                    values.len(),
+                    dim[0],
+                    dim[1],
+                    dim[2]
+                ),
+            ));
         }
         Ok(Volume { header, dim, affine, values })
     });
     outcome.unwrap_or_else(|_| {
-        Err(invalid(path, participant, "the NIfTI header is malformed and could not be decoded; check the file with a NIfTI viewer".into()))
+        Err(invalid(
+            path,
+            participant,
+            "the NIfTI header is malformed and could not be decoded; check the file with a NIfTI viewer"
+                .into(),
+        ))
     })
 }
 

@@ -91,7 +91,9 @@ pub fn read_table(path: &Path) -> Result<ParticipantsTable, ReadError> {
         return Err(ReadError::Table {
             path: path.to_path_buf(),
             line: 1,
-            problem: format!("header '{header}' has no tab; the table must be tab-separated (TSV), not comma-separated"),
+            problem: format!(
+                "header '{header}' has no tab; the table must be tab-separated (TSV), not comma-separated"
+            ),
         });
     }
     let mut seen = HashMap::new();
@@ -137,8 +139,9 @@ pub fn read_table(path: &Path) -> Result<ParticipantsTable, ReadError> {
 
 /// True if `id` is a valid BIDS participant id (`^sub-[0-9a-zA-Z+]+$`).
 pub fn is_participant_id(id: &str) -> bool {
-    id.strip_prefix("sub-")
-        .is_some_and(|label| !label.is_empty() && label.chars().all(|c| c.is_ascii_alphanumeric() || c == '+'))
+    id.strip_prefix("sub-").is_some_and(|label| {
+        !label.is_empty() && label.chars().all(|c| c.is_ascii_alphanumeric() || c == '+')
+    })
 }
 
 /// Reads and checks a BIDS participants table.
@@ -204,7 +207,8 @@ mod tests {
 
     #[test]
     fn reads_bids_table_with_crlf_and_missing_values() {
-        let (_dir, path) = write("participant_id\tdiagnosis\tage\r\nsub-01\tinsomnia\t14\r\nsub-02\tcontrol\tn/a\r\n");
+        let (_dir, path) =
+            write("participant_id\tdiagnosis\tage\r\nsub-01\tinsomnia\t14\r\nsub-02\tcontrol\tn/a\r\n");
         let table = read_participants(&path).unwrap();
         assert_eq!(table.ids(), vec!["sub-01", "sub-02"]);
         assert_eq!(table.column("age").unwrap(), vec!["14", "n/a"]);

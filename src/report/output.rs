@@ -48,7 +48,10 @@ impl OutputFolder {
             _ => PathBuf::from("."),
         };
         fs::create_dir_all(&parent).map_err(io_error(&parent))?;
-        let name = target.file_name().map(|name| name.to_string_lossy().into_owned()).unwrap_or_else(|| "out".into());
+        let name = target
+            .file_name()
+            .map(|name| name.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "out".into());
         remove_stale_partials(&parent, &name);
         let staging = parent.join(format!(".{name}.{PARTIAL_MARKER}-{}", std::process::id()));
         if staging.exists() {
@@ -104,7 +107,8 @@ fn remove_stale_partials(parent: &Path, name: &str) {
     for entry in entries.flatten() {
         let file_name = entry.file_name().to_string_lossy().into_owned();
         let Some(pid) = file_name.strip_prefix(&prefix) else { continue };
-        let alive = pid.parse::<u32>().map(|pid| Path::new(&format!("/proc/{pid}")).exists()).unwrap_or(false);
+        let alive =
+            pid.parse::<u32>().map(|pid| Path::new(&format!("/proc/{pid}")).exists()).unwrap_or(false);
         if !alive {
             let _ = fs::remove_dir_all(entry.path());
         }

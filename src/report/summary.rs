@@ -176,7 +176,8 @@ impl RunSummary {
     pub fn text(&self) -> String {
         let mut text = String::new();
         let kind = if self.input_kind == "seed_maps" { "seed maps" } else { "region matrices" };
-        let groups: Vec<String> = self.group_counts.iter().map(|(level, count)| format!("{count} {level}")).collect();
+        let groups: Vec<String> =
+            self.group_counts.iter().map(|(level, count)| format!("{count} {level}")).collect();
         let _ = writeln!(
             text,
             "strata {}: {} participants ({}), {kind}, {}.",
@@ -191,7 +192,8 @@ impl RunSummary {
             .filter(|community| community.community > 0)
             .map(|community| format!("{} (n={})", community.community, community.size))
             .collect();
-        let unassigned = self.communities.iter().find(|community| community.community == 0).map_or(0, |c| c.size);
+        let unassigned =
+            self.communities.iter().find(|community| community.community == 0).map_or(0, |c| c.size);
         let _ = writeln!(
             text,
             "Communities: {} found: {}{} (consensus over {} of {} densities, modularity {:.3}).",
@@ -204,8 +206,11 @@ impl RunSummary {
         );
         let (a, b) = &self.contrast;
         for comparison in &self.comparisons {
-            let scope =
-                if comparison.scope == "all" { "Whole cohort".to_string() } else { format!("Community {}", comparison.scope) };
+            let scope = if comparison.scope == "all" {
+                "Whole cohort".to_string()
+            } else {
+                format!("Community {}", comparison.scope)
+            };
             if comparison.written {
                 let _ = writeln!(
                     text,

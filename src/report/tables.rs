@@ -60,7 +60,8 @@ impl Table {
 
     /// Writes the table to `path`.
     pub fn write(&self, path: &Path) -> Result<(), WriteError> {
-        std::fs::write(path, self.to_tsv()).map_err(|source| WriteError::Io { path: path.to_path_buf(), source })
+        std::fs::write(path, self.to_tsv())
+            .map_err(|source| WriteError::Io { path: path.to_path_buf(), source })
     }
 }
 

@@ -3,7 +3,9 @@
 use std::collections::HashMap;
 
 /// Contingency counts n_ij, row sums a_i, column sums b_j and n.
-fn contingency(a: &[usize], b: &[usize]) -> (HashMap<(usize, usize), f64>, HashMap<usize, f64>, HashMap<usize, f64>, f64) {
+type Contingency = (HashMap<(usize, usize), f64>, HashMap<usize, f64>, HashMap<usize, f64>, f64);
+
+fn contingency(a: &[usize], b: &[usize]) -> Contingency {
     assert_eq!(a.len(), b.len(), "partitions of different lengths");
     let mut joint = HashMap::new();
     let mut rows = HashMap::new();
