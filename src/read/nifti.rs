@@ -5,7 +5,7 @@
 
 use std::path::Path;
 
-use nifti::{IntoNdArray, NiftiHeader, NiftiObject, ReaderOptions};
+use nifti::NiftiHeader;
 
 use super::ReadError;
 
@@ -63,72 +63,162 @@ pub fn header_affine(header: &NiftiHeader) -> Result<[[f64; 4]; 4], String> {
     Ok(affine)
 }
 
+/// NIfTI-1 datatype codes and their sizes in bytes (nifti1.h).
+fn datatype_size(datatype: i16) -> Option<usize> {
+    match datatype {
+        2 | 256 => Some(1),          // UINT8, INT8
+        4 | 512 => Some(2),          // INT16, UINT16
+        8 | 16 | 768 => Some(4),     // INT32, FLOAT32, UINT32
+        64 | 1024 | 1280 => Some(8), // FLOAT64, INT64, UINT64
+        _ => None,
+    }
+}
+
+/// Converts stored values to f32 with the NIfTI-1 scaling y = slope * x + inter (slope 0 or
+/// non-finite means unscaled), computed in f64.
+fn decode_values(data: &[u8], datatype: i16, little_endian: bool, slope: f64, inter: f64, out: &mut [f32]) {
+    macro_rules! convert {
+        ($type:ty, $size:expr) => {
+            for (target, chunk) in out.iter_mut().zip(data.chunks_exact($size)) {
+                let bytes: [u8; $size] = chunk.try_into().expect("chunk of the type's size");
+                let raw =
+                    if little_endian { <$type>::from_le_bytes(bytes) } else { <$type>::from_be_bytes(bytes) };
+                *target = (raw as f64 * slope + inter) as f32;
+            }
+        };
+    }
+    match datatype {
+        2 => convert!(u8, 1),
+        256 => convert!(i8, 1),
+        4 => convert!(i16, 2),
+        512 => convert!(u16, 2),
+        8 => convert!(i32, 4),
+        768 => convert!(u32, 4),
+        16 => convert!(f32, 4),
+        64 => convert!(f64, 8),
+        1024 => convert!(i64, 8),
+        1280 => convert!(u64, 8),
+        _ => {}
+    }
+}
+
+/// Reads a file, gunzipping it when it starts with the gzip magic bytes.
+fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
+    use std::io::Read;
+    let raw = std::fs::read(path)?;
+    if raw.len() < 2 || raw[0] != 0x1f || raw[1] != 0x8b {
+        return Ok(raw);
+    }
+    // The gzip trailer holds the uncompressed size modulo 2^32: a good first capacity.
+    let hint = raw
+        .len()
+        .checked_sub(4)
+        .map_or(0, |at| u32::from_le_bytes([raw[at], raw[at + 1], raw[at + 2], raw[at + 3]]) as usize);
+    let mut decoded = Vec::with_capacity(hint.min(1 << 31));
+    flate2::read::MultiGzDecoder::new(&raw[..]).read_to_end(&mut decoded)?;
+    Ok(decoded)
+}
+
 /// Reads a 3D volume.
 ///
+/// The file is read (and gunzipped) whole, the header parsed by the `nifti` crate, and the voxel
+/// values converted straight to f32 in file order.
+///
 /// # Errors
-/// Unreadable, truncated or corrupt file; NIfTI-2 or other format; more than three dimensions
-/// (a 4D file with one volume is accepted); a header whose affine cannot be formed.
+/// Unreadable, truncated or corrupt file; NIfTI-2 or other format; an unsupported datatype;
+/// more than three dimensions (a 4D file with one volume is accepted); a header whose affine
+/// cannot be formed.
 pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> {
-    if !path.exists() {
-        return Err(ReadError::Io {
-            path: path.to_path_buf(),
-            source: std::io::Error::from(std::io::ErrorKind::NotFound),
-        });
-    }
-    // The NIfTI decoder is third-party code fed with user files: a malformed header must become
-    // an error naming the file, never a crash.
-    let outcome = std::panic::catch_unwind(|| -> Result<Volume, ReadError> {
-        let object = ReaderOptions::new().read_file(path).map_err(|error| {
-            invalid(path, participant, format!(
-                "cannot read as NIfTI-1 ({error}); the file may be truncated, corrupt, NIfTI-2, or not a NIfTI image"
-            ))
-        })?;
-        let header = object.header().clone();
-        let dims: Vec<usize> =
-            header.dim[1..=(header.dim[0].clamp(1, 7) as usize)].iter().map(|&d| d as usize).collect();
-        let extra: usize = dims.iter().skip(3).product();
-        if dims.len() < 3 || extra > 1 {
-            return Err(invalid(path, participant, format!(
-                "image of shape {}; expected one 3D seed map per participant (split 4D files into 3D volumes first)",
-                dims.iter().map(usize::to_string).collect::<Vec<_>>().join("x")
-            )));
+    let bytes = match read_bytes(path) {
+        Ok(bytes) => bytes,
+        Err(source) if source.kind() == std::io::ErrorKind::NotFound => {
+            return Err(ReadError::Io { path: path.to_path_buf(), source })
         }
-        let affine = header_affine(&header).map_err(|problem| invalid(path, participant, problem))?;
-        let array = object.into_volume().into_ndarray::<f32>().map_err(|error| {
-            invalid(
-                path,
-                participant,
-                format!("cannot decode the voxel values ({error}); the file may be truncated"),
-            )
-        })?;
-        let values: Vec<f32> = match array.as_slice_memory_order() {
-            Some(slice) => slice.to_vec(),
-            None => array.t().iter().copied().collect(),
-        };
-        let dim = [dims[0], dims[1], dims[2]];
-        if values.len() != dim[0] * dim[1] * dim[2] {
+        Err(error) => {
             return Err(invalid(
                 path,
                 participant,
                 format!(
-                    "{} voxel values for a {}x{}x{} grid; the file is truncated",
-                    values.len(),
-                    dim[0],
-                    dim[1],
-                    dim[2]
-                ),
-            ));
+                "cannot decompress ({error}); the file is truncated or corrupt: copy it again from its source"
+            ),
+            ))
         }
-        Ok(Volume { header, dim, affine, values })
-    });
-    outcome.unwrap_or_else(|_| {
-        Err(invalid(
+    };
+    if bytes.len() >= 4 && i32::from_le_bytes([bytes[0], bytes[1], bytes[2], bytes[3]]) == 540 {
+        return Err(invalid(
             path,
             participant,
-            "the NIfTI header is malformed and could not be decoded; check the file with a NIfTI viewer"
-                .into(),
-        ))
-    })
+            "is a NIfTI-2 file; strata reads NIfTI-1 seed maps for now (convert with nibabel)".into(),
+        ));
+    }
+    // The NIfTI decoder is third-party code fed with user files: a malformed header must become
+    // an error naming the file, never a crash.
+    let parsed = std::panic::catch_unwind(|| NiftiHeader::from_reader(&bytes[..bytes.len().min(348)]));
+    let header = match parsed {
+        Ok(Ok(header)) => header,
+        Ok(Err(error)) => {
+            return Err(invalid(path, participant, format!(
+                "cannot read the NIfTI-1 header ({error}); the file may be truncated, corrupt, or not a NIfTI image"
+            )))
+        }
+        Err(_) => return Err(invalid(path, participant, "the NIfTI header is malformed; check the file with a NIfTI viewer".into())),
+    };
+    let rank = header.dim[0];
+    if !(1..=7).contains(&rank) {
+        return Err(invalid(
+            path,
+            participant,
+            format!("dim[0] = {rank} is not a valid number of dimensions (1-7)"),
+        ));
+    }
+    let dims: Vec<usize> = header.dim[1..=rank as usize].iter().map(|&d| d as usize).collect();
+    let extra: usize = dims.iter().skip(3).product();
+    if dims.len() < 3 || extra > 1 {
+        return Err(invalid(path, participant, format!(
+            "image of shape {}; expected one 3D seed map per participant (split 4D files into 3D volumes first)",
+            dims.iter().map(usize::to_string).collect::<Vec<_>>().join("x")
+        )));
+    }
+    let dim = [dims[0], dims[1], dims[2]];
+    let size = datatype_size(header.datatype).ok_or_else(|| {
+        invalid(
+            path,
+            participant,
+            format!(
+                "NIfTI datatype {} is not supported; strata reads integer and float32/float64 volumes",
+                header.datatype
+            ),
+        )
+    })?;
+    let voxels = dim[0] * dim[1] * dim[2];
+    let offset = (header.vox_offset.max(0.0) as usize).max(348);
+    let needed = voxels * size;
+    if bytes.len() < offset + needed {
+        return Err(invalid(
+            path,
+            participant,
+            format!(
+                "{} bytes of voxel data for a {}x{}x{} grid that needs {needed}; the file is truncated",
+                bytes.len().saturating_sub(offset),
+                dim[0],
+                dim[1],
+                dim[2]
+            ),
+        ));
+    }
+    let affine = header_affine(&header).map_err(|problem| invalid(path, participant, problem))?;
+    let (slope, inter) = if header.scl_slope != 0.0 && header.scl_slope.is_finite() {
+        (
+            f64::from(header.scl_slope),
+            if header.scl_inter.is_finite() { f64::from(header.scl_inter) } else { 0.0 },
+        )
+    } else {
+        (1.0, 0.0)
+    };
+    let little_endian = header.endianness == nifti::Endianness::Little;
+    let mut values = vec![0.0f32; voxels];
+    decode_values(&bytes[offset..offset + needed], header.datatype, little_endian, slope, inter, &mut values);
+    Ok(Volume { header, dim, affine, values })
 }
 
 /// True if two affines agree within [`AFFINE_TOLERANCE_MM`].
