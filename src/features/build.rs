@@ -9,7 +9,7 @@ use serde::Serialize;
 use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
 use crate::read::matrix::{read_matrix, read_stack};
-use crate::read::nifti::{affines_match, format_affine, read_volume, Volume};
+use crate::read::nifti::{affines_match, format_affine, read_raw, read_volume, RawVolume, Volume};
 use crate::read::{Cohort, InputKind};
 
 /// Off-diagonal entries (i, j) and (j, i) of a matrix are taken as equal within this relative
@@ -122,8 +122,8 @@ fn voxel_ijk(flat: usize, dim: [usize; 3]) -> (usize, usize, usize) {
     (flat % dim[0], (flat / dim[0]) % dim[1], flat / (dim[0] * dim[1]))
 }
 
-fn check_grid(
-    volume: &Volume,
+fn check_grid_raw(
+    volume: &RawVolume,
     reference: &Volume,
     path: &Path,
     participant: &str,
@@ -211,23 +211,29 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
     let mut values = vec![0.0f32; participants * width];
     let masked = given_mask.is_some();
     let reference = &first;
-    let outcomes: Vec<Result<usize, FeatureError>> = values
+    let outcomes: Vec<Result<(usize, Vec<usize>), FeatureError>> = values
         .par_chunks_mut(width)
         .enumerate()
         .map(|(row, out)| {
             let path = &cohort.sources[row].path;
             let participant = &cohort.participant_ids[row];
-            let owned;
-            let volume = if row == 0 {
-                reference
+            // Participant 0 was decoded whole for the candidate mask; the others decode only the
+            // candidate voxels, straight from their stored bytes.
+            let mut gathered = Vec::new();
+            let stored: &[f32] = if row == 0 {
+                &reference.values
             } else {
-                owned = read_volume(path, participant)?;
-                check_grid(&owned, reference, path, participant, first_path)?;
-                &owned
+                let raw = read_raw(path, participant)?;
+                check_grid_raw(&raw, reference, path, participant, first_path)?;
+                gathered.resize(candidates.len(), 0.0f32);
+                raw.gather(&candidates, &mut gathered);
+                &gathered
             };
             let mut clipped = 0;
-            for (target, &voxel) in out.iter_mut().zip(&candidates) {
-                let value = volume.values[voxel];
+            // Candidate columns this participant lacks (NaN, Inf or 0 outside its coverage).
+            let mut invalid = Vec::new();
+            for (column, (target, &voxel)) in out.iter_mut().zip(&candidates).enumerate() {
+                let value = if row == 0 { stored[voxel] } else { stored[column] };
                 if !value.is_finite() {
                     if masked {
                         let (i, j, k) = voxel_ijk(voxel, reference.dim);
@@ -240,10 +246,12 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
                         });
                     }
                     *target = f32::NAN;
+                    invalid.push(column);
                     continue;
                 }
                 if value == 0.0 && !masked {
                     *target = f32::NAN;
+                    invalid.push(column);
                     continue;
                 }
                 *target = transform(f64::from(value), options.values, &mut clipped).map_err(|problem| {
@@ -255,18 +263,19 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
                     }
                 })?;
             }
-            Ok(clipped)
+            Ok((clipped, invalid))
         })
         .collect();
     let mut clipped_values = 0;
+    // Keep the candidate voxels valid in every participant.
+    let mut keep = vec![true; width];
     for outcome in outcomes {
-        clipped_values += outcome?;
+        let (clipped, invalid) = outcome?;
+        clipped_values += clipped;
+        for column in invalid {
+            keep[column] = false;
+        }
     }
-    // Keep the candidate voxels valid in every participant (NaN marks an invalid value).
-    let keep: Vec<bool> = (0..width)
-        .into_par_iter()
-        .map(|col| (0..participants).all(|row| !values[row * width + col].is_nan()))
-        .collect();
     let mask: Vec<usize> =
         candidates.iter().zip(&keep).filter(|(_, &k)| k).map(|(&voxel, _)| voxel).collect();
     if mask.is_empty() {

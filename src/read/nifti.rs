@@ -129,6 +129,69 @@ fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
 /// more than three dimensions (a 4D file with one volume is accepted); a header whose affine
 /// cannot be formed.
 pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> {
+    let raw = read_raw(path, participant)?;
+    let voxels = raw.dim[0] * raw.dim[1] * raw.dim[2];
+    let mut values = vec![0.0f32; voxels];
+    decode_values(raw.data(), raw.header.datatype, raw.little_endian, raw.slope, raw.inter, &mut values);
+    Ok(Volume { header: raw.header, dim: raw.dim, affine: raw.affine, values })
+}
+
+/// A volume whose voxel values are still in their stored form, decoded on demand: reading only
+/// the masked voxels of each participant avoids converting (and allocating) the whole grid.
+#[derive(Debug)]
+pub struct RawVolume {
+    /// The header as read.
+    pub header: NiftiHeader,
+    /// Grid dimensions (i, j, k).
+    pub dim: [usize; 3],
+    /// Voxel-to-world affine, rows of a 4 x 4 matrix.
+    pub affine: [[f64; 4]; 4],
+    bytes: Vec<u8>,
+    offset: usize,
+    size: usize,
+    little_endian: bool,
+    slope: f64,
+    inter: f64,
+}
+
+impl RawVolume {
+    fn data(&self) -> &[u8] {
+        let voxels = self.dim[0] * self.dim[1] * self.dim[2];
+        &self.bytes[self.offset..self.offset + voxels * self.size]
+    }
+
+    /// Decodes the values of `voxels` (flat file-order indices) into `out`, scaled as NIfTI-1 says.
+    pub fn gather(&self, voxels: &[usize], out: &mut [f32]) {
+        let data = self.data();
+        let size = self.size;
+        if self.header.datatype == 16 && self.little_endian && self.slope == 1.0 && self.inter == 0.0 {
+            // The common case (float32, little-endian, unscaled): no per-voxel dispatch.
+            for (target, &voxel) in out.iter_mut().zip(voxels) {
+                let at = voxel * 4;
+                *target = f32::from_le_bytes([data[at], data[at + 1], data[at + 2], data[at + 3]]);
+            }
+            return;
+        }
+        let mut one = [0.0f32; 1];
+        for (target, &voxel) in out.iter_mut().zip(voxels) {
+            decode_values(
+                &data[voxel * size..(voxel + 1) * size],
+                self.header.datatype,
+                self.little_endian,
+                self.slope,
+                self.inter,
+                &mut one,
+            );
+            *target = one[0];
+        }
+    }
+}
+
+/// Reads a 3D volume's header and stored bytes (see [`read_volume`] for the checks and errors).
+///
+/// # Errors
+/// As [`read_volume`].
+pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> {
     let bytes = match read_bytes(path) {
         Ok(bytes) => bytes,
         Err(source) if source.kind() == std::io::ErrorKind::NotFound => {
@@ -216,9 +279,7 @@ pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> 
         (1.0, 0.0)
     };
     let little_endian = header.endianness == nifti::Endianness::Little;
-    let mut values = vec![0.0f32; voxels];
-    decode_values(&bytes[offset..offset + needed], header.datatype, little_endian, slope, inter, &mut values);
-    Ok(Volume { header, dim, affine, values })
+    Ok(RawVolume { header, dim, affine, bytes, offset, size, little_endian, slope, inter })
 }
 
 /// True if two affines agree within [`AFFINE_TOLERANCE_MM`].

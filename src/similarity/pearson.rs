@@ -1,6 +1,7 @@
 //! Pearson correlation between participants (rows of the feature matrix).
 
 use faer::linalg::matmul::matmul;
+use faer::linalg::matmul::triangular::{self, BlockStructure};
 use faer::{Accum, MatMut, MatRef, Par};
 use ndarray::Array2;
 use rayon::prelude::*;
@@ -13,9 +14,19 @@ use crate::features::FeatureMatrix;
 /// keep each tile's operands large enough for the matrix-multiply kernel to run near peak.
 pub const FEATURE_BLOCK: usize = 8192;
 
-/// Participants per output tile. Tiles are the unit of parallel work; their size depends on
-/// nothing but this constant, so every tile is computed the same way at any thread count.
-pub const TILE: usize = 256;
+/// Largest and smallest number of participants per output tile. Tiles are the unit of parallel
+/// work; their size depends on nothing but N (about N/8, rounded up to a multiple of 16, within
+/// these bounds), so every tile is computed the same way at any thread count. 256 keeps a
+/// tile's operands in cache-friendly panels for the matrix-multiply kernel; 64 keeps small
+/// cohorts split into enough tiles to keep two or more cores busy.
+pub const MAX_TILE: usize = 256;
+/// See [`MAX_TILE`].
+pub const MIN_TILE: usize = 64;
+
+/// The tile size for N participants.
+pub fn tile_size(participants: usize) -> usize {
+    (participants.div_ceil(8).div_ceil(16) * 16).clamp(MIN_TILE, MAX_TILE)
+}
 
 /// Row means and inverse centred norms, accumulated in f64.
 ///
@@ -67,7 +78,8 @@ pub fn pearson(features: &FeatureMatrix) -> SimilarityMatrix {
     let feature_count = features.feature_count();
     let (means, inverse_norms) = standardise_rows(features);
     let mut accumulated = vec![0.0f64; participants * participants];
-    let tiles = lower_tiles(participants);
+    let tile = tile_size(participants);
+    let tiles = lower_tiles(participants, tile);
     let mut scratch = vec![0.0f32; participants * FEATURE_BLOCK.min(feature_count.max(1))];
 
     let mut block_start = 0;
@@ -88,11 +100,11 @@ pub fn pearson(features: &FeatureMatrix) -> SimilarityMatrix {
         let block: &[f32] = block;
         let products: Vec<Vec<f32>> = tiles
             .par_iter()
-            .map(|&(row_tile, col_tile)| tile_product(block, participants, width, row_tile, col_tile))
+            .map(|&(row_tile, col_tile)| tile_product(block, participants, width, tile, row_tile, col_tile))
             .collect();
         for (&(row_tile, col_tile), product) in tiles.iter().zip(&products) {
-            let (row_start, row_end) = tile_range(row_tile, participants);
-            let (col_start, col_end) = tile_range(col_tile, participants);
+            let (row_start, row_end) = tile_range(row_tile, tile, participants);
+            let (col_start, col_end) = tile_range(col_tile, tile, participants);
             let tile_cols = col_end - col_start;
             for (offset, row) in (row_start..row_end).enumerate() {
                 let target = &mut accumulated[row * participants + col_start..row * participants + col_end];
@@ -118,32 +130,48 @@ pub fn pearson(features: &FeatureMatrix) -> SimilarityMatrix {
 }
 
 /// The (row tile, column tile) pairs of the lower triangle, column tile <= row tile.
-fn lower_tiles(participants: usize) -> Vec<(usize, usize)> {
-    let tile_count = participants.div_ceil(TILE);
+fn lower_tiles(participants: usize, tile: usize) -> Vec<(usize, usize)> {
+    let tile_count = participants.div_ceil(tile);
     (0..tile_count).flat_map(|row_tile| (0..=row_tile).map(move |col_tile| (row_tile, col_tile))).collect()
 }
 
-fn tile_range(tile: usize, participants: usize) -> (usize, usize) {
-    (tile * TILE, ((tile + 1) * TILE).min(participants))
+fn tile_range(index: usize, tile: usize, participants: usize) -> (usize, usize) {
+    (index * tile, ((index + 1) * tile).min(participants))
 }
 
-/// One output tile: rows of `row_tile` times columns of `col_tile`, row-major f32.
+/// One output tile: rows of `row_tile` times columns of `col_tile`, row-major f32. Diagonal tiles
+/// compute only their lower triangle (the upper one is never read).
 fn tile_product(
     block: &[f32],
     participants: usize,
     width: usize,
+    tile: usize,
     row_tile: usize,
     col_tile: usize,
 ) -> Vec<f32> {
-    let (row_start, row_end) = tile_range(row_tile, participants);
-    let (col_start, col_end) = tile_range(col_tile, participants);
+    let (row_start, row_end) = tile_range(row_tile, tile, participants);
+    let (col_start, col_end) = tile_range(col_tile, tile, participants);
     let (tile_rows, tile_cols) = (row_end - row_start, col_end - col_start);
     let lhs = MatRef::from_row_major_slice(&block[row_start * width..row_end * width], tile_rows, width);
     let rhs = MatRef::from_row_major_slice(&block[col_start * width..col_end * width], tile_cols, width)
         .transpose();
     let mut product = vec![0.0f32; tile_rows * tile_cols];
     let dst = MatMut::from_row_major_slice_mut(&mut product, tile_rows, tile_cols);
-    matmul(dst, Accum::Replace, lhs, rhs, 1.0f32, Par::Seq);
+    if row_tile == col_tile {
+        triangular::matmul(
+            dst,
+            BlockStructure::TriangularLower,
+            Accum::Replace,
+            lhs,
+            BlockStructure::Rectangular,
+            rhs,
+            BlockStructure::Rectangular,
+            1.0f32,
+            Par::Seq,
+        );
+    } else {
+        matmul(dst, Accum::Replace, lhs, rhs, 1.0f32, Par::Seq);
+    }
     product
 }
 
@@ -169,14 +197,14 @@ mod tests {
     fn spans_several_tiles_and_blocks_symmetrically() {
         // More participants than one tile and more features than one block exercise the
         // accumulation across blocks and the mirroring of the lower triangle.
-        let participants = TILE + 7;
+        let participants = MAX_TILE + 7;
         let features = FEATURE_BLOCK + 13;
         let values: Vec<f32> = (0..participants * features)
             .map(|index| (((index * 2654435761) % 1000) as f32) / 1000.0)
             .collect();
         let features = matrix(participants, features, values);
         let similarity = pearson(&features);
-        let (p, q) = (3, TILE + 5);
+        let (p, q) = (3, MAX_TILE + 5);
         // Direct two-pass computation in f64 for one pair.
         let row_p = features.values.row(p);
         let row_q = features.values.row(q);
