@@ -20,21 +20,23 @@ const DIM: [usize; 3] = [5, 4, 3];
 /// (scanner, code 1, identity rotation), and a mask of every third voxel.
 fn voxel_space() -> (FeatureSpace, [[f64; 4]; 4]) {
     let affine = [[2.0, 0.0, 0.0, -10.0], [0.0, 3.0, 0.0, -20.5], [0.0, 0.0, 4.0, 6.0], [0.0, 0.0, 0.0, 1.0]];
-    let mut header = nifti::NiftiHeader::default();
-    header.dim = [3, DIM[0] as u16, DIM[1] as u16, DIM[2] as u16, 1, 1, 1, 1];
-    header.pixdim = [1.0, 2.0, 3.0, 4.0, 2.5, 1.0, 1.0, 1.0];
-    header.sform_code = 4;
-    header.qform_code = 1;
-    header.srow_x = [2.0, 0.0, 0.0, -10.0];
-    header.srow_y = [0.0, 3.0, 0.0, -20.5];
-    header.srow_z = [0.0, 0.0, 4.0, 6.0];
-    header.quatern_x = -10.0;
-    header.quatern_y = -20.5;
-    header.quatern_z = 6.0;
-    header.xyzt_units = 2 | 8; // mm, seconds: the time bits must be dropped on output
-    header.slice_duration = 0.5;
-    header.datatype = 4; // int16 input: output must still be float32
-    header.intent_code = 5; // a stale input intent must not survive
+    let mut header = nifti::NiftiHeader {
+        dim: [3, DIM[0] as u16, DIM[1] as u16, DIM[2] as u16, 1, 1, 1, 1],
+        pixdim: [1.0, 2.0, 3.0, 4.0, 2.5, 1.0, 1.0, 1.0],
+        sform_code: 4,
+        qform_code: 1,
+        srow_x: [2.0, 0.0, 0.0, -10.0],
+        srow_y: [0.0, 3.0, 0.0, -20.5],
+        srow_z: [0.0, 0.0, 4.0, 6.0],
+        quatern_x: -10.0,
+        quatern_y: -20.5,
+        quatern_z: 6.0,
+        xyzt_units: 2 | 8, // mm, seconds: the time bits must be dropped on output
+        slice_duration: 0.5,
+        datatype: 4,    // int16 input: output must still be float32
+        intent_code: 5, // a stale input intent must not survive
+        ..Default::default()
+    };
     header.set_description(b"input map description".to_vec()).unwrap();
     let mask: Vec<usize> = (0..DIM.iter().product::<usize>()).step_by(3).collect();
     let space = VoxelSpace { dim: DIM, voxel_size: [2.0, 3.0, 4.0], affine, reference_header: header, mask };
