@@ -1,6 +1,6 @@
 //! Per-stage, per-repeat seeds derived from the one run seed.
 //!
-//! Every random choice in strata draws from a generator seeded by [`derive`] from the run seed,
+//! Every random choice in strata draws from a generator seeded by [`derive()`] from the run seed,
 //! a stage name and an index (density, trial, draw). Work items therefore get the same stream
 //! whichever thread runs them, and results do not depend on the thread count.
 

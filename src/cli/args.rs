@@ -60,7 +60,7 @@ pub struct RunArgs {
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
     pub participants: PathBuf,
     /// Match files to participants by this table column (its value must appear in the file
-    /// name) instead of the sub-<label> in the file name.
+    /// name) instead of the `sub-<label>` in the file name.
     #[arg(long, value_name = "COLUMN", help_heading = "Inputs")]
     pub match_column: Option<String>,
     /// Mask volume for seed maps: non-zero voxels are analysed. Default: the voxels finite and
