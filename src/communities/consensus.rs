@@ -144,7 +144,7 @@ fn structured(labels: &[usize], min_size: usize) -> bool {
 /// For each density (in parallel): the proportional-threshold graph and `trials` seeded Louvain
 /// runs, the best modularity kept. Densities are weighted and selected by the rule in this
 /// module's documentation; the weighted co-assignment matrix D of all their trials is
-/// thresholded at tau, partitioned by Louvain ([`CONSENSUS_TRIALS`] trials), and D is rebuilt
+/// thresholded at tau, partitioned by Louvain (`CONSENSUS_TRIALS` trials), and D is rebuilt
 /// from those partitions until they agree (Lancichinetti & Fortunato 2012).
 ///
 /// # Errors
