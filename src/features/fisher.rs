@@ -18,6 +18,9 @@ pub fn fisher_z(r: f64) -> f64 {
     let limit = 1.0 - FISHER_Z_CLIP;
     // Rust's f64::atanh evaluates 0.5 * ln_1p(2x / (1 - x)), which loses about 1e-10 relative
     // accuracy for x near -1; atanh is odd, so transform |r| and restore the sign.
+    if r.is_nan() {
+        return f64::NAN;
+    }
     let magnitude = r.abs().min(limit).atanh();
     magnitude.copysign(r)
 }
