@@ -4,27 +4,14 @@
 //!
 //! Run: cargo run --release --example consensus_rule
 
-use ndarray::Array2;
 use strata::communities::{detect_with_weighting, CommunityOptions, DensityWeighting};
 use strata::demo::Scenario;
-use strata::features::{fisher_z, FeatureMatrix};
+use strata::features::FeatureMatrix;
 use strata::similarity::pearson;
 use strata::validation::adjusted_rand_index;
 
 fn features(scenario: &Scenario) -> (FeatureMatrix, Vec<usize>) {
-    let (participants, matrices) = strata::demo::generate_matrix_values(scenario);
-    let regions = matrices[0].nrows();
-    let width = regions * (regions - 1) / 2;
-    let mut values = Vec::with_capacity(participants.len() * width);
-    for matrix in &matrices {
-        for i in 0..regions {
-            for j in (i + 1)..regions {
-                values.push(fisher_z(f64::from(matrix[[i, j]])) as f32);
-            }
-        }
-    }
-    let truth = participants.iter().map(|p| p.subgroup).collect();
-    (FeatureMatrix { values: Array2::from_shape_vec((participants.len(), width), values).unwrap() }, truth)
+    strata::demo::matrix_features(scenario)
 }
 
 fn main() {

@@ -1085,3 +1085,24 @@ label volume gives each voxel of the ellipsoid the index of its nearest region c
 (MNI-like affine, sform and qform code 4); 0 outside the ellipsoid.\n\n\
 Regenerate with `cargo test --test demo_make_data -- --ignored`.\n\n\
 Licence: CC0 1.0 (public domain dedication).\n";
+
+/// The planted matrix cohort of `scenario` as Fisher-z upper-triangle features (the features
+/// stage's layout) with the planted subgroup of each participant: for recovery tests and for
+/// the measurements in docs/methods.md.
+pub fn matrix_features(scenario: &Scenario) -> (crate::features::FeatureMatrix, Vec<usize>) {
+    let (participants, matrices) = generate_matrix_values(scenario);
+    let regions = matrices.first().map_or(0, |matrix| matrix.nrows());
+    let width = regions * regions.saturating_sub(1) / 2;
+    let mut values = Vec::with_capacity(participants.len() * width);
+    for matrix in &matrices {
+        for i in 0..regions {
+            for j in (i + 1)..regions {
+                values.push(crate::features::fisher_z(f64::from(matrix[[i, j]])) as f32);
+            }
+        }
+    }
+    let truth = participants.iter().map(|participant| participant.subgroup).collect();
+    let values =
+        Array2::from_shape_vec((participants.len(), width), values).expect("rows x edges by construction");
+    (crate::features::FeatureMatrix { values }, truth)
+}

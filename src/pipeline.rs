@@ -280,6 +280,18 @@ fn collect_community_warnings(
     }
 }
 
+/// Cohort rows of `community` (0 = unassigned).
+fn members_of(communities: &CommunityResult, community: usize) -> Vec<usize> {
+    communities
+        .partition
+        .membership
+        .iter()
+        .enumerate()
+        .filter(|(_, &c)| c == community)
+        .map(|(row, _)| row)
+        .collect()
+}
+
 /// The scopes of the comparisons: the whole cohort, then each community.
 fn scopes(communities: &CommunityResult) -> Vec<(String, Vec<usize>)> {
     let membership = &communities.partition.membership;
@@ -504,14 +516,7 @@ fn build_summary(
             group_counts: groups.counts(&rows),
         })
         .collect();
-    let unassigned: Vec<usize> = communities
-        .partition
-        .membership
-        .iter()
-        .enumerate()
-        .filter(|(_, &c)| c == 0)
-        .map(|(row, _)| row)
-        .collect();
+    let unassigned = members_of(communities, 0);
     if !unassigned.is_empty() {
         community_rows.push(CommunitySummary {
             community: 0,
@@ -595,14 +600,7 @@ fn write_tables(
     header.extend(level_columns);
     let mut table = Table::new(header);
     let mut scope_rows = scopes(communities).into_iter().skip(1).collect::<Vec<_>>();
-    let unassigned: Vec<usize> = communities
-        .partition
-        .membership
-        .iter()
-        .enumerate()
-        .filter(|(_, &c)| c == 0)
-        .map(|(row, _)| row)
-        .collect();
+    let unassigned = members_of(communities, 0);
     if !unassigned.is_empty() {
         scope_rows.push(("0".to_string(), unassigned));
     }

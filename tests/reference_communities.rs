@@ -3,10 +3,10 @@
 //! Reference data: tests/data/communities_reference.json, made by
 //! tests/data/generators/communities.py with networkx 3.6.1 and scikit-learn 1.9.1.
 
-use ndarray::Array2;
 use serde_json::Value;
 use strata::communities::{detect, louvain, modularity, CommunityOptions};
-use strata::features::{fisher_z, FeatureMatrix};
+use strata::demo::Scenario;
+use strata::features::FeatureMatrix;
 use strata::graph::ParticipantGraph;
 use strata::similarity::pearson;
 use strata::validation::{adjusted_rand_index, normalized_mutual_information};
@@ -100,21 +100,8 @@ fn agreement_matches_scikit_learn() {
     }
 }
 
-/// Fisher-z upper triangles of the planted demo cohort (strata's own generator).
-fn planted(scenario: &strata::demo::Scenario) -> (FeatureMatrix, Vec<usize>) {
-    let (participants, matrices) = strata::demo::generate_matrix_values(scenario);
-    let regions = matrices[0].nrows();
-    let width = regions * (regions - 1) / 2;
-    let mut values = Vec::with_capacity(participants.len() * width);
-    for matrix in &matrices {
-        for i in 0..regions {
-            for j in (i + 1)..regions {
-                values.push(fisher_z(f64::from(matrix[[i, j]])) as f32);
-            }
-        }
-    }
-    let truth = participants.iter().map(|p| p.subgroup).collect();
-    (FeatureMatrix { values: Array2::from_shape_vec((participants.len(), width), values).unwrap() }, truth)
+fn planted(scenario: &Scenario) -> (FeatureMatrix, Vec<usize>) {
+    strata::demo::matrix_features(scenario)
 }
 
 fn options(densities: Vec<f64>) -> CommunityOptions {
