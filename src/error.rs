@@ -29,6 +29,19 @@ pub enum Error {
     Demo(#[from] crate::demo::DemoError),
 }
 
+/// Messages list at most this many participant ids, then "and N more".
+pub const MAX_LISTED: usize = 10;
+
+/// Up to [`MAX_LISTED`] ids joined by commas, then "and N more".
+pub fn list_ids(ids: &[String]) -> String {
+    let shown: Vec<&str> = ids.iter().take(MAX_LISTED).map(String::as_str).collect();
+    if ids.len() > MAX_LISTED {
+        format!("{} and {} more", shown.join(", "), ids.len() - MAX_LISTED)
+    } else {
+        shown.join(", ")
+    }
+}
+
 /// Process exit codes, documented in `--help` and the README.
 pub mod exit_code {
     /// The run finished and wrote its outputs.

@@ -385,23 +385,18 @@ fn compare_and_write(
             }),
         );
         let uniform_dof = uniform(&comparison.dof);
-        let outputs: [(Statistic, Vec<f32>, &str); 6] = [
-            (Statistic::Difference, comparison.difference.clone(), "Mean Fisher z difference"),
-            (Statistic::T, comparison.t.clone(), "Welch t statistic"),
-            (Statistic::Dof, comparison.dof.clone(), "Welch-Satterthwaite degrees of freedom"),
-            (
-                Statistic::P,
-                comparison.p.iter().map(|&p| p as f32).collect(),
-                "Two-sided uncorrected p of the Welch t test",
-            ),
-            (
-                Statistic::Q,
-                comparison.q.iter().map(|&q| q as f32).collect(),
-                "Benjamini-Hochberg q across all features of this map",
-            ),
+        // Maps are stored as float32; p and q are kept in f64 by the stats stage.
+        let p_map: Vec<f32> = comparison.p.iter().map(|&p| p as f32).collect();
+        let q_map: Vec<f32> = comparison.q.iter().map(|&q| q as f32).collect();
+        let outputs: [(Statistic, &[f32], &str); 6] = [
+            (Statistic::Difference, &comparison.difference, "Mean Fisher z difference"),
+            (Statistic::T, &comparison.t, "Welch t statistic"),
+            (Statistic::Dof, &comparison.dof, "Welch-Satterthwaite degrees of freedom"),
+            (Statistic::P, &p_map, "Two-sided uncorrected p of the Welch t test"),
+            (Statistic::Q, &q_map, "Benjamini-Hochberg q across all features of this map"),
             (
                 Statistic::HedgesG,
-                comparison.hedges_g.clone(),
+                &comparison.hedges_g,
                 "Hedges g (bias-corrected standardised mean difference)",
             ),
         ];
@@ -414,7 +409,7 @@ fn compare_and_write(
                 space,
                 &name,
                 statistic,
-                &values,
+                values,
                 &with(
                     &contrast_sidecar,
                     json!({

@@ -5,9 +5,7 @@ use std::path::{Path, PathBuf};
 
 use super::table::ParticipantsTable;
 use super::{matrix, ReadError};
-
-/// Lists at most this many ids in an error message.
-const MAX_LISTED: usize = 10;
+use crate::error::list_ids;
 
 /// How input files are found and matched to participants.
 #[derive(Debug, Clone, Default)]
@@ -81,15 +79,6 @@ fn name_has_token(path: &Path, token: &str) -> bool {
         !before.is_some_and(|c| c.is_ascii_alphanumeric())
             && !after.is_some_and(|c| c.is_ascii_alphanumeric())
     })
-}
-
-fn list(ids: &[String]) -> String {
-    let shown: Vec<&str> = ids.iter().take(MAX_LISTED).map(String::as_str).collect();
-    if ids.len() > MAX_LISTED {
-        format!("{} and {} more", shown.join(", "), ids.len() - MAX_LISTED)
-    } else {
-        shown.join(", ")
-    }
 }
 
 fn expand(patterns: &[String]) -> Result<Vec<PathBuf>, ReadError> {
@@ -269,7 +258,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
         return Err(ReadError::MissingInputs {
             path: table.path().to_path_buf(),
             count: missing.len(),
-            listed: list(&missing),
+            listed: list_ids(&missing),
         });
     }
     if table.row_count() < 2 {

@@ -5,17 +5,7 @@ use std::path::PathBuf;
 
 use serde::{Serialize, Serializer};
 
-/// Lists at most this many participant ids in a message, then "and N more".
-const MAX_LISTED: usize = 10;
-
-fn list_ids(ids: &[String]) -> String {
-    let shown: Vec<&str> = ids.iter().take(MAX_LISTED).map(String::as_str).collect();
-    if ids.len() > MAX_LISTED {
-        format!("{} and {} more", shown.join(", "), ids.len() - MAX_LISTED)
-    } else {
-        shown.join(", ")
-    }
-}
+use crate::error::list_ids;
 
 /// Every warning strata gives, with its likely cause and what to try.
 #[derive(Debug, Clone, PartialEq)]
