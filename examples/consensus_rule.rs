@@ -40,6 +40,7 @@ fn main() {
         let similarity = pearson(&matrix);
         let options = CommunityOptions {
             densities: strata::config::DEFAULT_DENSITIES.to_vec(),
+            method: strata::communities::Method::Louvain,
             trials: strata::config::DEFAULT_TRIALS,
             resolution: 1.0,
             min_community_size: strata::config::DEFAULT_MIN_COMMUNITY_SIZE,

@@ -20,7 +20,12 @@ pub const DEFAULT_DENSITIES: [f64; 10] = [0.05, 0.10, 0.15, 0.20, 0.25, 0.30, 0.
 /// The default sweep as written on the command line.
 pub const DEFAULT_DENSITIES_TEXT: &str = "0.05:0.5:0.05";
 
-/// Default seeded Louvain trials per density (the best modularity is kept).
+/// Default community-detection method. Infomap (the map equation) as in the published
+/// subgrouping work; with strata's density rule it recovers planted subgroups as well as the
+/// modularity methods and finds one community in homogeneous cohorts (docs/methods.md).
+pub const DEFAULT_METHOD: crate::communities::Method = crate::communities::Method::Infomap;
+
+/// Default seeded trials per density (the method's best quality is kept).
 pub const DEFAULT_TRIALS: usize = 20;
 
 /// Default modularity resolution (1 = Newman-Girvan modularity).
@@ -76,7 +81,9 @@ pub struct RunConfig {
     pub atlas: Option<PathBuf>,
     /// Proportional densities of the sweep, each in (0, 1].
     pub densities: Vec<f64>,
-    /// Louvain trials per density.
+    /// Community-detection method.
+    pub method: crate::communities::Method,
+    /// Seeded trials per density.
     pub trials: usize,
     /// Modularity resolution gamma.
     pub resolution: f64,
@@ -173,6 +180,37 @@ pub fn parse_contrast(text: &str) -> Result<(String, String), ConfigError> {
 }
 
 impl RunConfig {
+    /// A configuration with every tunable at its default.
+    pub fn with_defaults(
+        inputs: Vec<String>,
+        participants: PathBuf,
+        group_column: &str,
+        contrast: (&str, &str),
+        out: PathBuf,
+    ) -> Self {
+        RunConfig {
+            inputs,
+            participants,
+            match_column: None,
+            group_column: group_column.to_string(),
+            contrast: (contrast.0.to_string(), contrast.1.to_string()),
+            out,
+            force: false,
+            mask: None,
+            values: Values::R,
+            atlas: None,
+            densities: DEFAULT_DENSITIES.to_vec(),
+            method: DEFAULT_METHOD,
+            trials: DEFAULT_TRIALS,
+            resolution: DEFAULT_RESOLUTION,
+            min_community_size: DEFAULT_MIN_COMMUNITY_SIZE,
+            consensus_threshold: DEFAULT_CONSENSUS_THRESHOLD,
+            alpha: DEFAULT_ALPHA,
+            seed: DEFAULT_SEED,
+            threads: 0,
+        }
+    }
+
     /// Checks cross-flag rules; every message names the flags involved.
     pub fn validate(self) -> Result<Self, ConfigError> {
         if self.inputs.is_empty() {

@@ -182,6 +182,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             &similarity,
             &CommunityOptions {
                 densities: config.densities.clone(),
+                method: config.method,
                 trials: config.trials,
                 resolution: config.resolution,
                 min_community_size: config.min_community_size,
@@ -775,24 +776,15 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
         let participants_tsv = inputs_dir.join("participants.tsv");
         let results_dir = options.out.join(format!("results-{kind}"));
         let config = RunConfig {
-            inputs: vec![inputs_glob],
-            participants: participants_tsv,
-            match_column: None,
-            group_column: "diagnosis".into(),
-            contrast: ("insomnia".into(), "control".into()),
-            out: results_dir,
-            force: false,
-            mask: None,
-            values: Values::R,
             atlas: atlas_table,
-            densities: crate::config::DEFAULT_DENSITIES.to_vec(),
-            trials: crate::config::DEFAULT_TRIALS,
-            resolution: crate::config::DEFAULT_RESOLUTION,
-            min_community_size: crate::config::DEFAULT_MIN_COMMUNITY_SIZE,
-            consensus_threshold: crate::config::DEFAULT_CONSENSUS_THRESHOLD,
-            alpha: crate::config::DEFAULT_ALPHA,
             seed: scenario.seed,
-            threads: 0,
+            ..RunConfig::with_defaults(
+                vec![inputs_glob],
+                participants_tsv,
+                "diagnosis",
+                ("insomnia", "control"),
+                results_dir,
+            )
         };
         let summary = run(&config, log)?;
         let found = read_communities(&config.out.join("participants.tsv"))?;

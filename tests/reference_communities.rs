@@ -107,6 +107,7 @@ fn planted(scenario: &Scenario) -> (FeatureMatrix, Vec<usize>) {
 fn options(densities: Vec<f64>) -> CommunityOptions {
     CommunityOptions {
         densities,
+        method: strata::communities::Method::Louvain,
         trials: strata::config::DEFAULT_TRIALS,
         resolution: 1.0,
         min_community_size: strata::config::DEFAULT_MIN_COMMUNITY_SIZE,

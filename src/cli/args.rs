@@ -89,7 +89,11 @@ pub struct RunArgs {
     /// (fractions of all participant pairs).
     #[arg(long, value_name = "RANGE", default_value = config::DEFAULT_DENSITIES_TEXT, help_heading = "Graph and communities")]
     pub densities: String,
-    /// Seeded Louvain trials per density; the highest modularity is kept.
+    /// Community-detection method: infomap (two-level map equation, shortest codelength kept) or
+    /// louvain (modularity, highest kept).
+    #[arg(long, value_enum, value_name = "METHOD", default_value_t = config::DEFAULT_METHOD, help_heading = "Graph and communities")]
+    pub method: crate::communities::Method,
+    /// Seeded trials of the method per density; the best is kept.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_TRIALS, help_heading = "Graph and communities")]
     pub trials: usize,
     /// Modularity resolution gamma (1 = Newman-Girvan modularity; larger gives smaller communities).
@@ -132,6 +136,7 @@ impl RunArgs {
             mask: self.mask,
             values: self.values,
             atlas: self.atlas,
+            method: self.method,
             trials: self.trials,
             resolution: self.resolution,
             min_community_size: self.min_community_size,

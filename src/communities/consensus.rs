@@ -14,11 +14,14 @@
 use ndarray::Array2;
 use rayon::prelude::*;
 
-use super::louvain::{louvain, renumber};
+use super::infomap::map_equation;
+use super::louvain::renumber;
+use super::method::{Method, Objective};
 use super::quality::modularity;
 use super::{CommunityError, CommunityOptions, CommunityResult, DensityResult, Partition};
 use crate::graph::{ParticipantGraph, RankedPairs};
 use crate::similarity::SimilarityMatrix;
+use crate::validation::normalized_mutual_information;
 
 /// A density enters the consensus only if its best partition reaches this modularity.
 /// 0.05 is well below the modularity of any partition with real structure on these graphs and
@@ -31,7 +34,7 @@ pub const DENSITY_MODULARITY_FLOOR: f64 = 0.05;
 /// fragments and isolates (strata's choice: half the cohort, see docs/methods.md).
 pub const MIN_ASSIGNED_FRACTION: f64 = 0.5;
 
-/// Louvain trials per consensus iteration on the co-assignment graph.
+/// Trials of the run's method per consensus iteration on the co-assignment graph.
 pub const CONSENSUS_TRIALS: usize = 10;
 
 /// The consensus iteration stops after this many rounds even if the partitions still disagree
@@ -79,34 +82,33 @@ pub fn coassignment(partitions: &[(Vec<usize>, f64)], node_count: usize) -> Arra
     matrix
 }
 
-/// One Louvain trial: its labels and modularity.
+/// One trial: its labels and the method's quality (codelength or modularity).
 type Trial = (Vec<usize>, f64);
 
-/// Seeded trials of Louvain; returns every trial's labels and modularity, in trial order.
+/// Seeded trials of `method`; returns every trial's labels and quality, in trial order.
 fn trials(
     graph: &ParticipantGraph,
-    resolution: f64,
+    options: &CommunityOptions,
     count: usize,
-    seed: u64,
     stage: &str,
     index: u64,
-) -> Vec<(Vec<usize>, f64)> {
+) -> Vec<Trial> {
     (0..count as u64)
         .into_par_iter()
         .map(|trial| {
-            let mut rng = crate::seed::rng(seed, stage, &[index, trial]);
-            let labels = louvain(graph, resolution, &mut rng);
-            let quality = modularity(graph, &labels, resolution);
+            let mut rng = crate::seed::rng(options.seed, stage, &[index, trial]);
+            let labels = options.method.run(graph, options.resolution, &mut rng);
+            let quality = options.method.quality(graph, &labels, options.resolution);
             (labels, quality)
         })
         .collect()
 }
 
-/// The trial of highest modularity (the earliest among equals).
-fn best(results: &[(Vec<usize>, f64)]) -> usize {
+/// The trial of best quality for `method` (the earliest among equals).
+fn best(results: &[Trial], method: Method) -> usize {
     let mut best = 0;
     for (index, (_, quality)) in results.iter().enumerate() {
-        if *quality > results[best].1 + 1e-12 {
+        if method.score(*quality) > method.score(results[best].1) + 1e-12 {
             best = index;
         }
     }
@@ -125,6 +127,33 @@ fn graph_from_coassignment(matrix: &Array2<f32>, threshold: f64) -> ParticipantG
         }
     }
     ParticipantGraph::from_edges(n, &edges)
+}
+
+/// Per participant, the mean co-assignment with the other members of its final community: how
+/// often (weighted over the included trials) it sat with them. NaN for unassigned participants
+/// and 1 for a community of one.
+fn consistency(coassignment: &Array2<f32>, partition: &Partition) -> Vec<f64> {
+    let membership = &partition.membership;
+    (0..membership.len())
+        .map(|p| {
+            let community = membership[p];
+            if community == 0 {
+                return f64::NAN;
+            }
+            let (sum, count) = membership
+                .iter()
+                .enumerate()
+                .filter(|&(q, &c)| c == community && q != p)
+                .fold((0.0f64, 0usize), |(sum, count), (q, _)| {
+                    (sum + f64::from(coassignment[[p, q]]), count + 1)
+                });
+            if count == 0 {
+                1.0
+            } else {
+                sum / count as f64
+            }
+        })
+        .collect()
 }
 
 fn structured(labels: &[usize], min_size: usize) -> bool {
@@ -192,21 +221,26 @@ pub fn detect_with_weighting(
         .enumerate()
         .map(|(index, &density)| {
             let graph = ranked.graph_at(density);
-            let results =
-                trials(&graph, options.resolution, options.trials, options.seed, "sweep", index as u64);
-            let chosen = best(&results);
+            let results = trials(&graph, options, options.trials, "sweep", index as u64);
+            let chosen = best(&results, options.method);
             let (labels, quality) = results[chosen].clone();
+            let codelength =
+                (options.method.objective() == Objective::Codelength).then(|| map_equation(&graph, &labels));
+            let quality_modularity = modularity(&graph, &labels, options.resolution);
             let community_count = renumber(&labels).1;
-            let has_structure =
-                structured(&labels, options.min_community_size) && quality >= DENSITY_MODULARITY_FLOOR;
+            let has_structure = structured(&labels, options.min_community_size)
+                && quality_modularity >= DENSITY_MODULARITY_FLOOR;
             let row = DensityResult {
                 density,
                 edge_count: graph.edge_count(),
                 isolated: graph.isolated(),
                 community_count,
-                modularity: quality,
+                quality,
+                modularity: quality_modularity,
+                codelength,
+                nmi_to_consensus: f64::NAN,
                 consensus_weight: match weighting {
-                    DensityWeighting::Structured if has_structure => quality,
+                    DensityWeighting::Structured if has_structure => quality_modularity,
                     DensityWeighting::Structured => 0.0,
                     DensityWeighting::Uniform if graph.edge_count() > 0 => 1.0,
                     DensityWeighting::Uniform => 0.0,
@@ -226,15 +260,21 @@ pub fn detect_with_weighting(
             weighted.extend(results.iter().map(|(labels, _)| (labels.clone(), share)));
         }
     }
-    let densities: Vec<DensityResult> = sweep.into_iter().map(|(row, _)| row).collect();
+    let mut densities: Vec<DensityResult> = sweep.into_iter().map(|(row, _)| row).collect();
     if weighted.is_empty() {
         let everyone = vec![0usize; node_count];
+        let partition = Partition::from_labels(&everyone, 1);
+        for row in densities.iter_mut() {
+            row.nmi_to_consensus = normalized_mutual_information(&row.membership, &everyone);
+        }
         return Ok(CommunityResult {
-            partition: Partition::from_labels(&everyone, 1),
+            consistency: vec![1.0; node_count],
+            partition,
             densities,
             coassignment: Array2::from_elem((node_count, node_count), 1.0),
             consensus_iterations: 0,
             consensus_modularity: 0.0,
+            consensus_codelength: None,
         });
     }
     let initial = coassignment(&weighted, node_count);
@@ -244,15 +284,8 @@ pub fn detect_with_weighting(
     while iterations < MAX_CONSENSUS_ITERATIONS {
         iterations += 1;
         let graph = graph_from_coassignment(&matrix, options.consensus_threshold);
-        let results = trials(
-            &graph,
-            options.resolution,
-            CONSENSUS_TRIALS,
-            options.seed,
-            "consensus",
-            iterations as u64,
-        );
-        labels = results[best(&results)].0.clone();
+        let results = trials(&graph, options, CONSENSUS_TRIALS, "consensus", iterations as u64);
+        labels = results[best(&results, options.method)].0.clone();
         let first = renumber(&results[0].0).0;
         let unanimous = results.iter().all(|(other, _)| renumber(other).0 == first);
         if unanimous {
@@ -262,12 +295,21 @@ pub fn detect_with_weighting(
         matrix = coassignment(&equal, node_count);
     }
     let consensus_graph = graph_from_coassignment(&initial, options.consensus_threshold);
-    let consensus_modularity = modularity(&consensus_graph, &renumber(&labels).0, options.resolution);
+    let labels = renumber(&labels).0;
+    let consensus_modularity = modularity(&consensus_graph, &labels, options.resolution);
+    let consensus_codelength = (options.method.objective() == Objective::Codelength)
+        .then(|| map_equation(&consensus_graph, &labels));
+    let partition = Partition::from_labels(&labels, options.min_community_size);
+    for row in densities.iter_mut() {
+        row.nmi_to_consensus = normalized_mutual_information(&row.membership, &partition.membership);
+    }
     Ok(CommunityResult {
-        partition: Partition::from_labels(&labels, options.min_community_size),
+        consistency: consistency(&initial, &partition),
+        partition,
         densities,
         coassignment: initial,
         consensus_iterations: iterations,
         consensus_modularity,
+        consensus_codelength,
     })
 }

@@ -5,14 +5,18 @@
 //! Louvain as further methods.
 
 mod consensus;
+mod infomap;
 mod louvain;
+mod method;
 mod quality;
 
 pub use consensus::{
     coassignment, detect, detect_with_weighting, DensityWeighting, DENSITY_MODULARITY_FLOOR,
     MIN_ASSIGNED_FRACTION,
 };
+pub use infomap::{infomap, map_equation, Codelength};
 pub use louvain::{louvain, renumber};
+pub use method::{Method, Objective};
 pub use quality::modularity;
 
 use ndarray::Array2;
@@ -64,7 +68,9 @@ impl Partition {
 pub struct CommunityOptions {
     /// Proportional densities of the sweep, each in (0, 1].
     pub densities: Vec<f64>,
-    /// Seeded Louvain trials per density; the highest modularity is kept.
+    /// The community-detection method.
+    pub method: Method,
+    /// Seeded trials per density; the best quality of the method is kept.
     pub trials: usize,
     /// Modularity resolution parameter gamma (1 = Newman-Girvan modularity).
     pub resolution: f64,
@@ -87,8 +93,14 @@ pub struct DensityResult {
     pub isolated: Vec<usize>,
     /// Communities in the best trial (before the minimum-size rule).
     pub community_count: usize,
-    /// Modularity of the best trial.
+    /// The method's quality of the best trial (codelength in bits for Infomap, else modularity).
+    pub quality: f64,
+    /// Modularity of the best trial (whatever the method; it decides the consensus weight).
     pub modularity: f64,
+    /// The map equation of the best trial, for Infomap.
+    pub codelength: Option<Codelength>,
+    /// NMI of the best trial's partition to the consensus partition (arithmetic normalisation).
+    pub nmi_to_consensus: f64,
     /// Weight this density received in the consensus (0 = left out), per the documented rule.
     pub consensus_weight: f64,
     /// The best trial's membership (0-based community labels, cohort order).
@@ -108,6 +120,11 @@ pub struct CommunityResult {
     pub consensus_iterations: usize,
     /// Modularity of the consensus partition on the co-assignment graph.
     pub consensus_modularity: f64,
+    /// The map equation of the consensus partition on the co-assignment graph, for Infomap.
+    pub consensus_codelength: Option<Codelength>,
+    /// Per participant, the weighted fraction of included trials placing it with the other
+    /// members of its final community (NaN for unassigned participants).
+    pub consistency: Vec<f64>,
 }
 
 /// Community detection could not run on the participant graph.
