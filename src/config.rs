@@ -79,8 +79,16 @@ pub struct RunConfig {
     pub values: Values,
     /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions.
     pub atlas: Option<PathBuf>,
-    /// Proportional densities of the sweep, each in (0, 1].
+    /// How the sweep's graphs are cut from the similarity matrix.
+    pub graph: GraphRule,
+    /// Proportional densities of the sweep, each in (0, 1] (graph rule `density`).
     pub densities: Vec<f64>,
+    /// Neighbour counts k (graph rules `knn`, `mutual_knn`).
+    pub neighbours: Vec<usize>,
+    /// Absolute similarity thresholds (graph rule `absolute`).
+    pub thresholds: Vec<f64>,
+    /// Weighted or binary edges.
+    pub edge_weights: crate::graph::EdgeWeights,
     /// Community-detection method.
     pub method: crate::communities::Method,
     /// Seeded trials per density.
@@ -116,38 +124,50 @@ fn invalid(flag: &str, message: impl Into<String>) -> ConfigError {
     ConfigError::Invalid { flag: flag.to_string(), message: message.into() }
 }
 
-/// Parses a density list: comma-separated values (`0.05,0.1`) or a range `START:STOP:STEP`
-/// (inclusive of STOP within rounding), each density a fraction in (0, 1].
-pub fn parse_densities(text: &str) -> Result<Vec<f64>, ConfigError> {
-    const FLAG: &str = "--densities";
+/// Parses numbers given as a comma-separated list (`0.05,0.1`) or a range `START:STOP:STEP`
+/// (inclusive of STOP within rounding); `example` is shown in messages.
+pub fn parse_numbers(flag: &str, text: &str, example: &str) -> Result<Vec<f64>, ConfigError> {
     let parse = |part: &str| -> Result<f64, ConfigError> {
-        part.trim().parse::<f64>().map_err(|_| {
-            invalid(
-                FLAG,
-                format!("'{part}' is not a number; give fractions like 0.05,0.1 or a range 0.02:0.2:0.02"),
-            )
+        part.trim().parse::<f64>().ok().filter(|value| value.is_finite()).ok_or_else(|| {
+            invalid(flag, format!("'{part}' is not a number; give a list or a range, for example {example}"))
         })
     };
-    let densities = if text.contains(':') {
+    let values = if text.contains(':') {
         let parts: Vec<&str> = text.split(':').collect();
         if parts.len() != 3 {
             return Err(invalid(
-                FLAG,
-                format!("range '{text}' must be START:STOP:STEP, for example 0.02:0.2:0.02"),
+                flag,
+                format!("range '{text}' must be START:STOP:STEP, for example {example}"),
             ));
         }
         let (start, stop, step) = (parse(parts[0])?, parse(parts[1])?, parse(parts[2])?);
-        if step.is_nan() || step <= 0.0 || stop < start {
-            return Err(invalid(FLAG, format!("range '{text}' needs STEP > 0 and STOP >= START")));
+        if step <= 0.0 || stop < start {
+            return Err(invalid(flag, format!("range '{text}' needs STEP > 0 and STOP >= START")));
         }
         let count = ((stop - start) / step + 1e-9).floor() as usize + 1;
+        if count > MAX_SWEEP_LEVELS {
+            return Err(invalid(
+                flag,
+                format!("range '{text}' gives {count} values; at most {MAX_SWEEP_LEVELS} are allowed"),
+            ));
+        }
         (0..count).map(|index| ((start + step * index as f64) * 1e9).round() / 1e9).collect()
     } else {
         text.split(',').filter(|part| !part.trim().is_empty()).map(parse).collect::<Result<Vec<_>, _>>()?
     };
-    if densities.is_empty() {
-        return Err(invalid(FLAG, "no density given; for example --densities 0.02:0.2:0.02"));
+    if values.is_empty() {
+        return Err(invalid(flag, format!("no value given; for example {example}")));
     }
+    Ok(values)
+}
+
+/// A sweep has at most this many graphs (guards against a mistyped range such as 0:1:0.0001).
+pub const MAX_SWEEP_LEVELS: usize = 1000;
+
+/// Parses a density list or range, each density a fraction in (0, 1].
+pub fn parse_densities(text: &str) -> Result<Vec<f64>, ConfigError> {
+    const FLAG: &str = "--densities";
+    let densities = parse_numbers(FLAG, text, "0.05:0.5:0.05")?;
     for &density in &densities {
         if !(density > 0.0 && density <= 1.0) {
             return Err(invalid(
@@ -160,6 +180,53 @@ pub fn parse_densities(text: &str) -> Result<Vec<f64>, ConfigError> {
     }
     Ok(densities)
 }
+
+/// Parses the neighbour counts k of k-nearest-neighbour graphs (whole numbers, at least 1).
+pub fn parse_neighbours(text: &str) -> Result<Vec<usize>, ConfigError> {
+    const FLAG: &str = "--neighbours";
+    parse_numbers(FLAG, text, "5:30:5")?
+        .into_iter()
+        .map(|k| {
+            if k >= 1.0 && k.fract() == 0.0 {
+                Ok(k as usize)
+            } else {
+                Err(invalid(FLAG, format!("{k} is not a whole number of neighbours of at least 1")))
+            }
+        })
+        .collect()
+}
+
+/// Parses absolute similarity thresholds (each in (0, 1): only positive similarities are edges).
+pub fn parse_thresholds(text: &str) -> Result<Vec<f64>, ConfigError> {
+    const FLAG: &str = "--thresholds";
+    let thresholds = parse_numbers(FLAG, text, "0.2:0.5:0.05")?;
+    for &threshold in &thresholds {
+        if !(threshold > 0.0 && threshold < 1.0) {
+            return Err(invalid(
+                FLAG,
+                format!("threshold {threshold} is outside (0, 1); thresholds are Pearson correlations between participants"),
+            ));
+        }
+    }
+    Ok(thresholds)
+}
+
+/// How the participant graphs of the sweep are cut from the similarity matrix.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, clap::ValueEnum)]
+#[serde(rename_all = "snake_case")]
+pub enum GraphRule {
+    /// Proportional density: the strongest fraction of all pairs (--densities).
+    Density,
+    /// k nearest neighbours, an edge when either participant lists the other (--neighbours).
+    Knn,
+    /// Mutual k nearest neighbours, an edge when both list each other (--neighbours).
+    MutualKnn,
+    /// Absolute threshold: every similarity at or above each value (--thresholds).
+    Absolute,
+}
+
+/// The default neighbour counts of k-nearest-neighbour sweeps.
+pub const DEFAULT_NEIGHBOURS_TEXT: &str = "5:30:5";
 
 /// Parses `A,B` into the contrast levels.
 pub fn parse_contrast(text: &str) -> Result<(String, String), ConfigError> {
@@ -199,7 +266,11 @@ impl RunConfig {
             mask: None,
             values: Values::R,
             atlas: None,
+            graph: GraphRule::Density,
             densities: DEFAULT_DENSITIES.to_vec(),
+            neighbours: vec![5, 10, 15, 20, 25, 30],
+            thresholds: Vec::new(),
+            edge_weights: crate::graph::EdgeWeights::Weighted,
             method: DEFAULT_METHOD,
             trials: DEFAULT_TRIALS,
             resolution: DEFAULT_RESOLUTION,
@@ -237,7 +308,26 @@ impl RunConfig {
         if self.min_community_size == 0 {
             return Err(invalid("--min-community-size", "must be at least 1"));
         }
+        if self.graph == GraphRule::Absolute && self.thresholds.is_empty() {
+            return Err(invalid(
+                "--graph absolute",
+                "needs --thresholds, for example --graph absolute --thresholds 0.2:0.5:0.05",
+            ));
+        }
         Ok(self)
+    }
+
+    /// The graphs of the sweep under the chosen rule.
+    pub fn levels(&self) -> Vec<crate::graph::SweepLevel> {
+        use crate::graph::SweepLevel;
+        match self.graph {
+            GraphRule::Density => self.densities.iter().map(|&d| SweepLevel::Density(d)).collect(),
+            GraphRule::Knn => self.neighbours.iter().map(|&k| SweepLevel::Neighbours(k)).collect(),
+            GraphRule::MutualKnn => {
+                self.neighbours.iter().map(|&k| SweepLevel::MutualNeighbours(k)).collect()
+            }
+            GraphRule::Absolute => self.thresholds.iter().map(|&t| SweepLevel::Threshold(t)).collect(),
+        }
     }
 }
 

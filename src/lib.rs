@@ -36,6 +36,7 @@ pub mod error;
 pub mod features;
 pub mod graph;
 pub mod maps;
+pub mod partition;
 pub mod pipeline;
 pub mod read;
 pub mod report;

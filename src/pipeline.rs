@@ -176,12 +176,17 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     ));
 
     let similarity = timings.time(log, "similarity", || similarity::pearson(&features.matrix));
-    log.note(&format!("community detection over {} densities", config.densities.len()));
+    log.note(&format!(
+        "community detection ({}) over {} graphs of the sweep",
+        config.method.name(),
+        config.levels().len()
+    ));
     let communities = timings.time(log, "communities", || {
         communities::detect(
             &similarity,
             &CommunityOptions {
-                densities: config.densities.clone(),
+                levels: config.levels(),
+                edge_weights: config.edge_weights,
                 method: config.method,
                 trials: config.trials,
                 resolution: config.resolution,
@@ -545,13 +550,25 @@ fn build_summary(
         group_column: config.group_column.clone(),
         contrast: config.contrast.clone(),
         group_counts: groups.counts(&everyone),
-        densities: config.densities.clone(),
+        method: config.method.name().to_string(),
+        graph_rule: communities.densities.first().map_or("density", |row| row.level.rule()).to_string(),
+        sweep_parameters: communities.densities.iter().map(|row| row.level.parameter()).collect(),
+        densities: communities.densities.iter().map(|row| row.density).collect(),
         densities_in_consensus: communities
             .densities
             .iter()
             .filter(|density| density.consensus_weight > 0.0)
             .map(|density| density.density)
             .collect(),
+        parameters_in_consensus: communities
+            .densities
+            .iter()
+            .filter(|density| density.consensus_weight > 0.0)
+            .map(|density| density.level.parameter())
+            .collect(),
+        consensus_codelength: communities.consensus_codelength.map(|c| c.codelength),
+        consensus_relative_savings: communities.consensus_codelength.map(|c| c.relative_savings()),
+        median_consistency: median(communities.consistency.iter().copied().filter(|c| !c.is_nan()).collect()),
         community_count: communities.partition.community_count(),
         communities: community_rows,
         consensus_modularity: communities.consensus_modularity,
@@ -560,6 +577,20 @@ fn build_summary(
         alpha: config.alpha,
         warnings,
         seconds: started.elapsed().as_secs_f64(),
+    }
+}
+
+/// Median of `values` (NaN when empty).
+fn median(mut values: Vec<f64>) -> f64 {
+    if values.is_empty() {
+        return f64::NAN;
+    }
+    values.sort_by(f64::total_cmp);
+    let middle = values.len() / 2;
+    if values.len() % 2 == 1 {
+        values[middle]
+    } else {
+        (values[middle - 1] + values[middle]) / 2.0
     }
 }
 
@@ -577,10 +608,14 @@ fn write_tables(
     let table = &cohort.table;
     let mut columns: Vec<String> = table.columns().to_vec();
     columns.push("community".into());
+    columns.push("consistency".into());
     let mut participants = Table::new(columns);
-    for (row, community) in table.rows().iter().zip(&communities.partition.membership) {
+    for ((row, community), consistency) in
+        table.rows().iter().zip(&communities.partition.membership).zip(&communities.consistency)
+    {
         let mut cells = row.clone();
         cells.push(community.to_string());
+        cells.push(if consistency.is_nan() { MISSING.to_string() } else { format_number(*consistency) });
         participants.push(cells);
     }
     participants.write(&dir.join("participants.tsv"))?;
@@ -610,16 +645,34 @@ fn write_tables(
     }
     table.write(&dir.join("communities.tsv"))?;
 
-    // sweep.tsv: per density.
-    let mut sweep =
-        Table::new(["density", "edges", "isolated", "communities", "modularity", "consensus_weight"]);
+    // sweep.tsv: per graph of the sweep.
+    let mut sweep = Table::new([
+        "density",
+        "graph",
+        "parameter",
+        "edges",
+        "isolated",
+        "communities",
+        "quality",
+        "modularity",
+        "codelength_bits",
+        "relative_savings",
+        "nmi_to_consensus",
+        "consensus_weight",
+    ]);
     for density in &communities.densities {
         sweep.push(vec![
             format_number(density.density),
+            density.level.rule().to_string(),
+            format_number(density.level.parameter()),
             density.edge_count.to_string(),
             density.isolated.len().to_string(),
             density.community_count.to_string(),
+            format_number(density.quality),
             format_number(density.modularity),
+            density.codelength.map_or(MISSING.to_string(), |c| format_number(c.codelength)),
+            density.codelength.map_or(MISSING.to_string(), |c| format_number(c.relative_savings())),
+            format_number(density.nmi_to_consensus),
             format_number(density.consensus_weight),
         ]);
     }

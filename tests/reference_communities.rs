@@ -7,7 +7,7 @@ use serde_json::Value;
 use strata::communities::{detect, louvain, modularity, CommunityOptions};
 use strata::demo::Scenario;
 use strata::features::FeatureMatrix;
-use strata::graph::ParticipantGraph;
+use strata::graph::{ParticipantGraph, SweepLevel};
 use strata::similarity::pearson;
 use strata::validation::{adjusted_rand_index, normalized_mutual_information};
 
@@ -106,13 +106,9 @@ fn planted(scenario: &Scenario) -> (FeatureMatrix, Vec<usize>) {
 
 fn options(densities: Vec<f64>) -> CommunityOptions {
     CommunityOptions {
-        densities,
-        method: strata::communities::Method::Louvain,
-        trials: strata::config::DEFAULT_TRIALS,
-        resolution: 1.0,
-        min_community_size: strata::config::DEFAULT_MIN_COMMUNITY_SIZE,
-        consensus_threshold: strata::config::DEFAULT_CONSENSUS_THRESHOLD,
+        levels: densities.into_iter().map(SweepLevel::Density).collect(),
         seed: 11,
+        ..CommunityOptions::default()
     }
 }
 

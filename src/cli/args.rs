@@ -41,6 +41,111 @@ pub enum Command {
     Run(RunArgs),
     /// Generate the fictional Northfield demo cohort and run the whole analysis on it.
     Demo(DemoArgs),
+    /// Partition any weighted undirected graph (edge list or dense .npy) into communities:
+    /// node<TAB>community lines to standard output, the quality to standard error.
+    #[command(after_help = PARTITION_EXAMPLE)]
+    Partition(PartitionArgs),
+}
+
+const PARTITION_EXAMPLE: &str = "\
+Graph files:
+  edge list: one edge per line, 'i j w' separated by tabs or spaces (w optional, default 1);
+             lines starting with # are skipped; a pair listed twice has its weights added.
+  .npy:      a dense symmetric N x N matrix of non-negative weights (float32 or float64).
+
+Examples:
+  strata partition network.tsv > communities.tsv
+  strata partition similarity.npy --method leiden --density 0.1 --trials 50 --quality-json q.json";
+
+/// Flags of `strata partition`.
+#[derive(Debug, Args)]
+pub struct PartitionArgs {
+    /// The graph: an edge list (.tsv, .txt, any text) or a dense .npy weight matrix.
+    #[arg(value_name = "GRAPH")]
+    pub graph: PathBuf,
+    /// Community-detection method.
+    #[arg(long, value_enum, value_name = "METHOD", default_value_t = config::DEFAULT_METHOD)]
+    pub method: crate::communities::Method,
+    /// Seeded trials; the best quality is kept (shortest codelength for infomap, highest
+    /// modularity otherwise).
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_TRIALS)]
+    pub trials: usize,
+    /// Run seed: the same seed gives the same partition at any thread count.
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_SEED)]
+    pub seed: u64,
+    /// Resolution gamma of modularity (1 = Newman-Girvan).
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_RESOLUTION)]
+    pub resolution: f64,
+    /// Keep only the strongest fraction of all node pairs as edges (proportional density).
+    #[arg(long, value_name = "NUM", group = "keep")]
+    pub density: Option<f64>,
+    /// Keep each node's K strongest edges (an edge when either node keeps it).
+    #[arg(long, value_name = "K", group = "keep")]
+    pub neighbours: Option<usize>,
+    /// Keep an edge only when it is among both nodes' K strongest.
+    #[arg(long, value_name = "K", group = "keep")]
+    pub mutual_neighbours: Option<usize>,
+    /// Keep edges of weight at or above this value.
+    #[arg(long, value_name = "NUM", group = "keep")]
+    pub threshold: Option<f64>,
+    /// Edge weights: weighted (as given) or binary (1 for every kept edge).
+    #[arg(long, value_enum, value_name = "KIND", default_value = "weighted")]
+    pub edges: crate::graph::EdgeWeights,
+    /// Also write the quality and run figures to this JSON file (keys in docs/outputs.md).
+    #[arg(long, value_name = "FILE")]
+    pub quality_json: Option<PathBuf>,
+    /// Worker threads (0 = one per core).
+    #[arg(long, value_name = "NUM", default_value_t = 0)]
+    pub threads: usize,
+}
+
+impl PartitionArgs {
+    /// Builds the validated options.
+    pub fn into_options(self) -> Result<crate::partition::PartitionOptions, ConfigError> {
+        use crate::graph::SweepLevel;
+        let invalid = |flag: &str, message: String| ConfigError::Invalid { flag: flag.into(), message };
+        if self.trials == 0 {
+            return Err(invalid("--trials", "must be at least 1".into()));
+        }
+        if !self.resolution.is_finite() || self.resolution <= 0.0 {
+            return Err(invalid("--resolution", format!("{} must be a positive number", self.resolution)));
+        }
+        let keep = if let Some(density) = self.density {
+            if !(density > 0.0 && density <= 1.0) {
+                return Err(invalid(
+                    "--density",
+                    format!("{density} is outside (0, 1]; it is a fraction of all node pairs"),
+                ));
+            }
+            Some(SweepLevel::Density(density))
+        } else if let Some(k) = self.neighbours {
+            if k == 0 {
+                return Err(invalid("--neighbours", "must be at least 1".into()));
+            }
+            Some(SweepLevel::Neighbours(k))
+        } else if let Some(k) = self.mutual_neighbours {
+            if k == 0 {
+                return Err(invalid("--mutual-neighbours", "must be at least 1".into()));
+            }
+            Some(SweepLevel::MutualNeighbours(k))
+        } else if let Some(threshold) = self.threshold {
+            if !threshold.is_finite() {
+                return Err(invalid("--threshold", format!("{threshold} is not a finite number")));
+            }
+            Some(SweepLevel::Threshold(threshold))
+        } else {
+            None
+        };
+        Ok(crate::partition::PartitionOptions {
+            graph: self.graph,
+            method: self.method,
+            trials: self.trials,
+            seed: self.seed,
+            resolution: self.resolution,
+            keep,
+            edge_weights: self.edges,
+        })
+    }
 }
 
 const RUN_EXAMPLE: &str = "\
@@ -85,10 +190,37 @@ pub struct RunArgs {
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA, help_heading = "Comparison")]
     pub alpha: f64,
 
-    /// Proportional densities of the graph sweep: a range START:STOP:STEP or a list A,B,...
-    /// (fractions of all participant pairs).
+    /// How the sweep's participant graphs are cut from the similarity matrix: density
+    /// (strongest fraction of all pairs), knn or mutual-knn (each participant's k most similar),
+    /// absolute (every similarity at or above a threshold).
+    #[arg(
+        long,
+        value_enum,
+        value_name = "RULE",
+        default_value = "density",
+        help_heading = "Graph and communities"
+    )]
+    pub graph: config::GraphRule,
+    /// Proportional densities of the sweep (--graph density): a range START:STOP:STEP or a list
+    /// A,B,... (fractions of all participant pairs).
     #[arg(long, value_name = "RANGE", default_value = config::DEFAULT_DENSITIES_TEXT, help_heading = "Graph and communities")]
     pub densities: String,
+    /// Neighbour counts k of the sweep (--graph knn or mutual-knn): a range or a list.
+    #[arg(long, value_name = "RANGE", default_value = config::DEFAULT_NEIGHBOURS_TEXT, help_heading = "Graph and communities")]
+    pub neighbours: String,
+    /// Similarity thresholds of the sweep (--graph absolute, required there): a range or a list
+    /// of Pearson correlations in (0, 1).
+    #[arg(long, value_name = "RANGE", help_heading = "Graph and communities")]
+    pub thresholds: Option<String>,
+    /// Edge weights: weighted (the similarity) or binary (1 for every kept pair).
+    #[arg(
+        long,
+        value_enum,
+        value_name = "KIND",
+        default_value = "weighted",
+        help_heading = "Graph and communities"
+    )]
+    pub edges: crate::graph::EdgeWeights,
     /// Community-detection method: infomap (two-level map equation, shortest codelength kept) or
     /// louvain (modularity, highest kept).
     #[arg(long, value_enum, value_name = "METHOD", default_value_t = config::DEFAULT_METHOD, help_heading = "Graph and communities")]
@@ -125,7 +257,16 @@ impl RunArgs {
     /// Builds the validated configuration.
     pub fn into_config(self) -> Result<RunConfig, ConfigError> {
         RunConfig {
+            graph: self.graph,
             densities: config::parse_densities(&self.densities)?,
+            neighbours: config::parse_neighbours(&self.neighbours)?,
+            thresholds: self
+                .thresholds
+                .as_deref()
+                .map(config::parse_thresholds)
+                .transpose()?
+                .unwrap_or_default(),
+            edge_weights: self.edges,
             contrast: config::parse_contrast(&self.contrast)?,
             inputs: self.inputs,
             participants: self.participants,

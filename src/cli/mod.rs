@@ -29,6 +29,20 @@ pub fn run_with(cli: Cli) -> Result<(), Error> {
             print!("{}", summary.text());
             Ok(())
         }
+        Command::Partition(partition) => {
+            install_threads(partition.threads)?;
+            let quality_json = partition.quality_json.clone();
+            let outcome = crate::partition::partition(&partition.into_options()?)?;
+            if let Some(path) = quality_json {
+                let text = serde_json::to_string_pretty(&outcome).expect("the outcome serialises") + "\n";
+                crate::maps::write_bytes_atomically(&path, text.as_bytes())?;
+            }
+            print!("{}", outcome.lines());
+            if !cli.quiet {
+                eprintln!("{}", outcome.quality_line());
+            }
+            Ok(())
+        }
         Command::Demo(demo) => {
             install_threads(demo.threads)?;
             let text = crate::pipeline::demo(&demo.into_options()?, &log)?;

@@ -19,7 +19,7 @@ use super::louvain::renumber;
 use super::method::{Method, Objective};
 use super::quality::modularity;
 use super::{CommunityError, CommunityOptions, CommunityResult, DensityResult, Partition};
-use crate::graph::{ParticipantGraph, RankedPairs};
+use crate::graph::{ParticipantGraph, SweepGraphs};
 use crate::similarity::SimilarityMatrix;
 use crate::validation::normalized_mutual_information;
 
@@ -211,16 +211,17 @@ pub fn detect_with_weighting(
     weighting: DensityWeighting,
 ) -> Result<CommunityResult, CommunityError> {
     let node_count = similarity.participant_count();
-    let ranked = RankedPairs::new(similarity);
-    if ranked.positive_pairs() == 0 {
+    let graphs = SweepGraphs::new(similarity, options.edge_weights);
+    if graphs.positive_pairs() == 0 {
         return Err(CommunityError::NoEdges);
     }
+    let all_pairs = (node_count * node_count.saturating_sub(1) / 2).max(1) as f64;
     let sweep: Vec<(DensityResult, Vec<Trial>)> = options
-        .densities
+        .levels
         .par_iter()
         .enumerate()
-        .map(|(index, &density)| {
-            let graph = ranked.graph_at(density);
+        .map(|(index, &level)| {
+            let graph = graphs.graph(level);
             let results = trials(&graph, options, options.trials, "sweep", index as u64);
             let chosen = best(&results, options.method);
             let (labels, quality) = results[chosen].clone();
@@ -231,7 +232,8 @@ pub fn detect_with_weighting(
             let has_structure = structured(&labels, options.min_community_size)
                 && quality_modularity >= DENSITY_MODULARITY_FLOOR;
             let row = DensityResult {
-                density,
+                level,
+                density: graph.edge_count() as f64 / all_pairs,
                 edge_count: graph.edge_count(),
                 isolated: graph.isolated(),
                 community_count,

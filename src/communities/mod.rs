@@ -21,6 +21,8 @@ pub use quality::modularity;
 
 use ndarray::Array2;
 
+use crate::graph::{EdgeWeights, SweepLevel};
+
 /// A partition of participants into communities.
 ///
 /// `membership[p]` is participant p's community: 1..=k numbered by decreasing size (ties by
@@ -66,8 +68,10 @@ impl Partition {
 /// Tunables of community detection (defaults live in `crate::config`).
 #[derive(Debug, Clone)]
 pub struct CommunityOptions {
-    /// Proportional densities of the sweep, each in (0, 1].
-    pub densities: Vec<f64>,
+    /// The graphs of the sweep (proportional densities by default).
+    pub levels: Vec<SweepLevel>,
+    /// Weighted or binary edges.
+    pub edge_weights: EdgeWeights,
     /// The community-detection method.
     pub method: Method,
     /// Seeded trials per density; the best quality of the method is kept.
@@ -82,10 +86,30 @@ pub struct CommunityOptions {
     pub seed: u64,
 }
 
-/// What one density of the sweep gave.
+impl Default for CommunityOptions {
+    /// strata's defaults (`crate::config`): the density sweep 5%-50% with weighted edges, the
+    /// default method, trials, size floor and consensus threshold.
+    fn default() -> Self {
+        use crate::config;
+        CommunityOptions {
+            levels: config::DEFAULT_DENSITIES.iter().map(|&d| SweepLevel::Density(d)).collect(),
+            edge_weights: EdgeWeights::Weighted,
+            method: config::DEFAULT_METHOD,
+            trials: config::DEFAULT_TRIALS,
+            resolution: config::DEFAULT_RESOLUTION,
+            min_community_size: config::DEFAULT_MIN_COMMUNITY_SIZE,
+            consensus_threshold: config::DEFAULT_CONSENSUS_THRESHOLD,
+            seed: config::DEFAULT_SEED,
+        }
+    }
+}
+
+/// What one graph (one density, k or threshold) of the sweep gave.
 #[derive(Debug, Clone)]
 pub struct DensityResult {
-    /// Proportional density asked for.
+    /// The graph rule and its parameter.
+    pub level: SweepLevel,
+    /// Density reached: kept edges over all participant pairs.
     pub density: f64,
     /// Undirected edges kept.
     pub edge_count: usize,

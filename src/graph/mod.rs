@@ -1,11 +1,16 @@
 //! Stage 4: similarity matrix to participant graphs in compressed sparse rows.
 //!
-//! Proportional-density thresholds keep the strongest positive similarities; negative and zero
-//! similarities never become edges, and participants left without an edge are reported by the
+//! Proportional-density thresholds keep the strongest positive similarities, k-nearest-neighbour
+//! graphs each participant's most similar others, absolute thresholds every similarity above a
+//! value; negative and zero similarities never become edges, and participants left without an edge are reported by the
 //! communities stage. Community detection itself is the next stage's job.
 
+mod file;
+mod sweep;
 mod threshold;
 
+pub use file::{read_graph, GraphFile};
+pub use sweep::{EdgeWeights, Neighbours, SweepGraphs, SweepLevel};
 pub use threshold::{proportional_threshold, RankedPairs};
 
 /// A weighted undirected graph in compressed sparse rows (both directions stored), with

@@ -46,9 +46,18 @@ impl RankedPairs {
         self.pairs.len()
     }
 
+    /// The weighted graph of every positive pair with similarity at or above `threshold`.
+    pub fn graph_above(&self, threshold: f64) -> ParticipantGraph {
+        let kept = self.pairs.partition_point(|&(value, _, _)| f64::from(value) >= threshold);
+        self.graph_of_first(kept)
+    }
+
     /// The weighted graph of the strongest pairs at `density`.
     pub fn graph_at(&self, density: f64) -> ParticipantGraph {
-        let kept = self.edge_count_at(density);
+        self.graph_of_first(self.edge_count_at(density))
+    }
+
+    fn graph_of_first(&self, kept: usize) -> ParticipantGraph {
         let edges: Vec<(usize, usize, f64)> = self.pairs[..kept]
             .iter()
             .map(|&(value, i, j)| (i as usize, j as usize, f64::from(value)))

@@ -355,6 +355,17 @@ fn write_edge_map(
     })
 }
 
+/// Writes `bytes` to `path` through a temporary file and a rename, so that `path` is never
+/// half-written.
+///
+/// # Errors
+/// The file cannot be created or renamed.
+pub fn write_bytes_atomically(path: &Path, bytes: &[u8]) -> Result<(), WriteError> {
+    write_atomically(path, |temporary| {
+        std::fs::write(temporary, bytes).map_err(|source| WriteError::Io { path: path.to_path_buf(), source })
+    })
+}
+
 /// Run `write` on a hidden temporary path beside `path`, then rename it to `path`.
 ///
 /// The temporary name `.tmp-<pid>-<file name>` keeps the file's extensions (the NIfTI writer

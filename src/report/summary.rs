@@ -139,18 +139,33 @@ pub struct RunSummary {
     pub contrast: (String, String),
     /// Participants per group level over the cohort.
     pub group_counts: Vec<(String, usize)>,
-    /// Densities of the sweep.
+    /// Community-detection method (`infomap`, `leiden`, `louvain`).
+    pub method: String,
+    /// Graph rule of the sweep (`density`, `knn`, `mutual_knn`, `absolute`).
+    pub graph_rule: String,
+    /// The rule's parameter per graph of the sweep (density, k or threshold).
+    pub sweep_parameters: Vec<f64>,
+    /// Densities reached by the graphs of the sweep (kept edges over all pairs).
     pub densities: Vec<f64>,
-    /// Densities that entered the consensus.
+    /// Densities of the graphs that entered the consensus.
     pub densities_in_consensus: Vec<f64>,
+    /// The rule's parameters of the graphs that entered the consensus.
+    pub parameters_in_consensus: Vec<f64>,
     /// Communities of the consensus (excluding unassigned).
     pub community_count: usize,
     /// Communities and their composition (community 0 last, if any).
     pub communities: Vec<CommunitySummary>,
     /// Modularity of the consensus partition on the co-assignment graph.
     pub consensus_modularity: f64,
+    /// Two-level codelength (bits) of the consensus partition on the co-assignment graph
+    /// (Infomap only).
+    pub consensus_codelength: Option<f64>,
+    /// Relative codelength savings over one module on the co-assignment graph (Infomap only).
+    pub consensus_relative_savings: Option<f64>,
     /// Consensus iterations.
     pub consensus_iterations: usize,
+    /// Median per-participant consistency (mean co-assignment with the own community).
+    pub median_consistency: f64,
     /// The contrasts.
     pub comparisons: Vec<ComparisonSummary>,
     /// The false-discovery level used in `significant_features`.
@@ -184,15 +199,26 @@ impl RunSummary {
             .collect();
         let unassigned =
             self.communities.iter().find(|community| community.community == 0).map_or(0, |c| c.size);
+        let savings = self
+            .consensus_relative_savings
+            .map_or(String::new(), |savings| format!(", codelength savings {:.1}%", 100.0 * savings));
+        let rule = match self.graph_rule.as_str() {
+            "density" => "density",
+            "knn" => "k-nearest-neighbour",
+            "mutual_knn" => "mutual k-nearest-neighbour",
+            _ => "threshold",
+        };
         let _ = writeln!(
             text,
-            "Communities: {} found: {}{} (consensus over {} of {} densities, modularity {:.3}).",
+            "Communities ({}): {} found: {}{} (consensus over {} of {} {rule} graphs, modularity {:.3}{savings}; median consistency {:.2}).",
+            self.method,
             self.community_count,
             sizes.join(", "),
             if unassigned > 0 { format!("; {unassigned} unassigned") } else { String::new() },
             self.densities_in_consensus.len(),
             self.densities.len(),
-            self.consensus_modularity
+            self.consensus_modularity,
+            self.median_consistency
         );
         let (a, b) = &self.contrast;
         for comparison in &self.comparisons {
