@@ -1,10 +1,11 @@
 //! Stage 5: participant graphs to a consensus [`Partition`].
 //!
 //! Louvain modularity optimisation per density (seeded trials, best kept) and the consensus
-//! across the density sweep (Lancichinetti & Fortunato 2012). Infomap and Leiden will sit beside
-//! Louvain as further methods.
+//! across the density sweep (Lancichinetti & Fortunato 2012). Leiden (modularity or CPM, with
+//! connected communities guaranteed) sits beside Louvain; Infomap will join them.
 
 mod consensus;
+mod leiden;
 mod louvain;
 mod quality;
 
@@ -12,6 +13,7 @@ pub use consensus::{
     coassignment, detect, detect_with_weighting, DensityWeighting, DENSITY_MODULARITY_FLOOR,
     MIN_ASSIGNED_FRACTION,
 };
+pub use leiden::{cpm_quality, leiden, LeidenQuality};
 pub use louvain::{louvain, renumber};
 pub use quality::modularity;
 
