@@ -122,7 +122,9 @@ fn local_moving<R: Rng>(graph: &ParticipantGraph, resolution: f64, rng: &mut R) 
     (community, moved_any)
 }
 
-fn aggregate(graph: &ParticipantGraph, community: &[usize], count: usize) -> ParticipantGraph {
+/// Aggregate graph of `community` (labels 0..count): communities become nodes, internal weight
+/// becomes self-loops (shared with Leiden).
+pub(super) fn aggregate(graph: &ParticipantGraph, community: &[usize], count: usize) -> ParticipantGraph {
     let mut self_loops = vec![0.0f64; count];
     let mut maps: Vec<std::collections::BTreeMap<usize, f64>> = vec![Default::default(); count];
     for node in 0..graph.node_count() {

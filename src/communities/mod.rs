@@ -1,11 +1,13 @@
 //! Stage 5: participant graphs to a consensus [`Partition`].
 //!
-//! Louvain modularity optimisation per density (seeded trials, best kept) and the consensus
-//! across the density sweep (Lancichinetti & Fortunato 2012). Infomap and Leiden will sit beside
-//! Louvain as further methods.
+//! Per graph of the sweep, seeded trials of one method (best kept): Infomap (two-level map
+//! equation, the default), Leiden (modularity or the constant Potts model, every community
+//! connected) or Louvain (modularity); then the consensus across the sweep (Lancichinetti &
+//! Fortunato 2012).
 
 mod consensus;
 mod infomap;
+mod leiden;
 mod louvain;
 mod method;
 mod quality;
@@ -15,6 +17,7 @@ pub use consensus::{
     MIN_ASSIGNED_FRACTION,
 };
 pub use infomap::{infomap, map_equation, Codelength};
+pub use leiden::{cpm_quality, leiden, LeidenQuality};
 pub use louvain::{louvain, renumber};
 pub use method::{Method, Objective};
 pub use quality::modularity;
