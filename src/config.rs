@@ -61,6 +61,9 @@ pub enum Values {
 pub struct RunConfig {
     /// Glob patterns or paths of the input files.
     pub inputs: Vec<String>,
+    /// A precomputed N x N participant similarity matrix (`.npy`, participants-table order) used
+    /// in place of `inputs`.
+    pub similarity: Option<PathBuf>,
     /// The BIDS participants table.
     pub participants: PathBuf,
     /// Match files by this table column instead of the `sub-<label>` in the file name.
@@ -257,6 +260,7 @@ impl RunConfig {
     ) -> Self {
         RunConfig {
             inputs,
+            similarity: None,
             participants,
             match_column: None,
             group_column: group_column.to_string(),
@@ -284,7 +288,7 @@ impl RunConfig {
 
     /// Checks cross-flag rules; every message names the flags involved.
     pub fn validate(self) -> Result<Self, ConfigError> {
-        if self.inputs.is_empty() {
+        if self.inputs.is_empty() && self.similarity.is_none() {
             return Err(invalid(
                 "--inputs",
                 "no input given; for example --inputs 'maps/sub-*_seedmap.nii.gz'",

@@ -49,7 +49,7 @@ pub struct PartitionOutcome {
     pub isolated_nodes: usize,
     /// Method name.
     pub method: String,
-    /// What the trials were scored by: `codelength` or `modularity`.
+    /// What the trials were scored by: `codelength`, `modularity` or `cpm`.
     pub objective: Objective,
     /// The best trial's objective value (codelength in bits, or modularity).
     pub quality: f64,
@@ -108,6 +108,7 @@ impl PartitionOutcome {
             Objective::Modularity => {
                 format!("modularity {:.6} (resolution {})", self.modularity, self.resolution)
             }
+            Objective::Cpm => format!("CPM quality {:.6} (resolution {})", self.quality, self.resolution),
         };
         format!(
             "{}: {} communities of {} nodes, {quality}; best of {} trials (seed {})",

@@ -141,41 +141,62 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     let mut timings = Timings::default();
     let output = OutputFolder::prepare(&config.out, config.force)?;
 
-    let (cohort, groups) = timings.time(log, "read", || -> Result<_, Error> {
+    let (cohort, groups, given_similarity) = timings.time(log, "read", || -> Result<_, Error> {
         let table = read::read_participants(&config.participants)?;
-        let options =
-            InputOptions { patterns: config.inputs.clone(), match_column: config.match_column.clone() };
-        let cohort = read::discover_inputs(&options, &table)?;
-        let groups = group_labels(config, &cohort)?;
-        Ok((cohort, groups))
-    })?;
-    log.note(&format!(
-        "{} participants matched to {} input file(s)",
-        cohort.participant_ids.len(),
-        cohort.sources.len()
-    ));
-
-    let region_names = match &config.atlas {
-        Some(path) => Some((path.clone(), read_atlas_names(path)?)),
-        None => None,
-    };
-    let features = timings.time(log, "features", || {
-        let options = FeatureOptions {
-            mask: config.mask.clone(),
-            values: match config.values {
-                Values::R => ValueScale::Correlation,
-                Values::Z => ValueScale::FisherZ,
-            },
-            region_names,
+        let (cohort, given) = match &config.similarity {
+            Some(path) => {
+                let (cohort, values) = read::read_similarity(path, &table)?;
+                (cohort, Some(SimilarityMatrix { values }))
+            }
+            None => {
+                let options = InputOptions {
+                    patterns: config.inputs.clone(),
+                    match_column: config.match_column.clone(),
+                };
+                (read::discover_inputs(&options, &table)?, None)
+            }
         };
-        features::build_features(&cohort, &options)
+        let groups = group_labels(config, &cohort)?;
+        Ok((cohort, groups, given))
     })?;
-    log.note(&format!(
-        "{} features per participant; computing participant similarity",
-        features.matrix.feature_count()
-    ));
 
-    let similarity = timings.time(log, "similarity", || similarity::pearson(&features.matrix));
+    let (features, similarity) = match given_similarity {
+        Some(similarity) => {
+            log.note(&format!(
+                "{} participants, precomputed similarity matrix (no features: no maps or comparisons)",
+                cohort.participant_ids.len()
+            ));
+            (None, similarity)
+        }
+        None => {
+            log.note(&format!(
+                "{} participants matched to {} input file(s)",
+                cohort.participant_ids.len(),
+                cohort.sources.len()
+            ));
+            let region_names = match &config.atlas {
+                Some(path) => Some((path.clone(), read_atlas_names(path)?)),
+                None => None,
+            };
+            let features = timings.time(log, "features", || {
+                let options = FeatureOptions {
+                    mask: config.mask.clone(),
+                    values: match config.values {
+                        Values::R => ValueScale::Correlation,
+                        Values::Z => ValueScale::FisherZ,
+                    },
+                    region_names,
+                };
+                features::build_features(&cohort, &options)
+            })?;
+            log.note(&format!(
+                "{} features per participant; computing participant similarity",
+                features.matrix.feature_count()
+            ));
+            let similarity = timings.time(log, "similarity", || similarity::pearson(&features.matrix));
+            (Some(features), similarity)
+        }
+    };
     log.note(&format!(
         "community detection ({}) over {} graphs of the sweep",
         config.method.name(),
@@ -211,11 +232,16 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             .push(Warning::MissingGroupLabel { column: config.group_column.clone(), participants: missing });
     }
 
-    log.note("group comparisons and maps");
-    let maps_dir = output.subdir("maps")?;
-    let comparisons = timings.time(log, "compare", || {
-        compare_and_write(config, &features, &groups, &communities, &maps_dir, &mut warnings)
-    })?;
+    let comparisons = match &features {
+        Some(features) => {
+            log.note("group comparisons and maps");
+            let maps_dir = output.subdir("maps")?;
+            timings.time(log, "compare", || {
+                compare_and_write(config, features, &groups, &communities, &maps_dir, &mut warnings)
+            })?
+        }
+        None => not_compared(config, &groups, &communities),
+    };
 
     timings.time(log, "write", || {
         write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity)
@@ -224,8 +250,16 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         log.warn(warning);
     }
 
-    let summary =
-        build_summary(config, &cohort, &features, &groups, &communities, comparisons, warnings, started);
+    let summary = build_summary(
+        config,
+        &cohort,
+        features.as_ref(),
+        &groups,
+        &communities,
+        comparisons,
+        warnings,
+        started,
+    );
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
@@ -308,6 +342,31 @@ fn scopes(communities: &CommunityResult) -> Vec<(String, Vec<usize>)> {
         scopes.push((community.to_string(), rows));
     }
     scopes
+}
+
+/// The comparison rows of a run without features (a precomputed similarity matrix).
+fn not_compared(
+    config: &RunConfig,
+    groups: &Groups,
+    communities: &CommunityResult,
+) -> Vec<ComparisonSummary> {
+    let (level_a, level_b) = &config.contrast;
+    scopes(communities)
+        .into_iter()
+        .map(|(scope, rows)| ComparisonSummary {
+            scope,
+            count_a: groups.rows_of(level_a, &rows).len(),
+            count_b: groups.rows_of(level_b, &rows).len(),
+            written: false,
+            reason: Some(
+                "precomputed similarity matrix: no features to compare; run with --inputs for maps".into(),
+            ),
+            significant_features: 0,
+            max_abs_t: f64::NAN,
+            peak: String::new(),
+            peak_t: f64::NAN,
+        })
+        .collect()
 }
 
 fn compare_and_write(
@@ -500,7 +559,7 @@ pub fn describe_feature(space: &FeatureSpace, index: usize) -> String {
 fn build_summary(
     config: &RunConfig,
     cohort: &Cohort,
-    features: &Features,
+    features: Option<&Features>,
     groups: &Groups,
     communities: &CommunityResult,
     comparisons: Vec<ComparisonSummary>,
@@ -525,27 +584,29 @@ fn build_summary(
             group_counts: groups.counts(&unassigned),
         });
     }
-    let feature_description = match &features.space {
-        FeatureSpace::Voxels(voxels) => format!(
+    let feature_description = match features.map(|features| &features.space) {
+        Some(FeatureSpace::Voxels(voxels)) => format!(
             "{} in-mask voxels of a {}x{}x{} grid",
             voxels.mask.len(),
             voxels.dim[0],
             voxels.dim[1],
             voxels.dim[2]
         ),
-        FeatureSpace::Edges(edges) => {
-            format!("{} regions, {} edges", edges.region_count, features.space.feature_count())
+        Some(space @ FeatureSpace::Edges(edges)) => {
+            format!("{} regions, {} edges", edges.region_count, space.feature_count())
         }
+        None => "a precomputed similarity matrix".to_string(),
     };
     RunSummary {
         strata_version: crate::VERSION.to_string(),
         output: config.out.clone(),
-        input_kind: match features.space {
-            FeatureSpace::Voxels(_) => "seed_maps".into(),
-            FeatureSpace::Edges(_) => "region_matrices".into(),
+        input_kind: match features.map(|features| &features.space) {
+            Some(FeatureSpace::Voxels(_)) => "seed_maps".into(),
+            Some(FeatureSpace::Edges(_)) => "region_matrices".into(),
+            None => "similarity_matrix".into(),
         },
         participant_count: cohort.participant_ids.len(),
-        feature_count: features.matrix.feature_count(),
+        feature_count: features.map_or(0, |features| features.matrix.feature_count()),
         feature_description,
         group_column: config.group_column.clone(),
         contrast: config.contrast.clone(),

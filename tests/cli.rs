@@ -144,7 +144,7 @@ fn run_on_the_committed_small_cohort() {
     assert!(stdout.contains("24 participants"), "{stdout}");
     let table = std::fs::read_to_string(out.join("participants.tsv")).unwrap();
     let header: Vec<&str> = table.lines().next().unwrap().split('\t').collect();
-    assert_eq!(header.last(), Some(&"community"));
+    assert_eq!(&header[header.len() - 2..], &["community", "consistency"]);
     assert_eq!(table.lines().count(), 25);
     // BIDS v1.11.1 derivative dataset_description: Name, BIDSVersion, DatasetType, GeneratedBy[].Name.
     let description: serde_json::Value =

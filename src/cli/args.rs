@@ -159,8 +159,18 @@ pub struct RunArgs {
     /// Input files: a glob pattern or paths (repeat the flag or separate with commas). 3D NIfTI
     /// seed maps (.nii, .nii.gz) or region matrices (.npy R x R or one N x R x R stack, .csv,
     /// .tsv). Quote globs so the shell does not expand them.
-    #[arg(long, value_name = "GLOB", required = true, value_delimiter = ',', help_heading = "Inputs")]
+    #[arg(
+        long,
+        value_name = "GLOB",
+        required_unless_present = "similarity",
+        value_delimiter = ',',
+        help_heading = "Inputs"
+    )]
     pub inputs: Vec<String>,
+    /// A precomputed participant similarity matrix (.npy, N x N, rows in participants-table
+    /// order) in place of --inputs: communities, sweep and tables are written, maps are not.
+    #[arg(long, value_name = "NPY", conflicts_with_all = ["inputs", "mask", "atlas", "match_column"], help_heading = "Inputs")]
+    pub similarity: Option<PathBuf>,
     /// BIDS participants table (tab-separated, first column participant_id).
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
     pub participants: PathBuf,
@@ -221,8 +231,9 @@ pub struct RunArgs {
         help_heading = "Graph and communities"
     )]
     pub edges: crate::graph::EdgeWeights,
-    /// Community-detection method: infomap (two-level map equation, shortest codelength kept) or
-    /// louvain (modularity, highest kept).
+    /// Community-detection method: infomap (two-level map equation, shortest codelength kept),
+    /// leiden (modularity, connected communities), leiden-cpm (constant Potts model; give
+    /// --resolution as an edge density such as 0.1) or louvain (modularity).
     #[arg(long, value_enum, value_name = "METHOD", default_value_t = config::DEFAULT_METHOD, help_heading = "Graph and communities")]
     pub method: crate::communities::Method,
     /// Seeded trials of the method per density; the best is kept.
@@ -269,6 +280,7 @@ impl RunArgs {
             edge_weights: self.edges,
             contrast: config::parse_contrast(&self.contrast)?,
             inputs: self.inputs,
+            similarity: self.similarity,
             participants: self.participants,
             match_column: self.match_column,
             group_column: self.group_column,

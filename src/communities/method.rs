@@ -1,13 +1,14 @@
 //! The community-detection methods behind one interface: one seeded trial, and its quality.
 //!
-//! Each method optimises its own objective (Infomap the map equation, Leiden and Louvain
-//! modularity or the constant Potts model); [`Method::score`] puts them on one scale where
+//! Each method optimises its own objective (Infomap the map equation, Leiden modularity or the
+//! constant Potts model, Louvain modularity); [`Method::score`] puts them on one scale where
 //! higher is better, so the sweep and the consensus keep the best trial whatever the method.
 
 use rand::Rng;
 use serde::Serialize;
 
 use super::infomap::{infomap, map_equation};
+use super::leiden::{cpm_quality, leiden, LeidenQuality};
 use super::louvain::louvain;
 use super::quality::modularity;
 use crate::graph::ParticipantGraph;
@@ -18,6 +19,12 @@ use crate::graph::ParticipantGraph;
 pub enum Method {
     /// Infomap, the two-level map equation (Rosvall & Bergstrom 2008): shortest codelength kept.
     Infomap,
+    /// Leiden (Traag, Waltman & van Eck 2019) on modularity: highest modularity kept; every
+    /// community connected.
+    Leiden,
+    /// Leiden on the constant Potts model (resolution = the edge-weight density a community must
+    /// exceed, for example 0.1): highest CPM quality kept.
+    LeidenCpm,
     /// Louvain modularity optimisation (Blondel et al. 2008): highest modularity kept.
     Louvain,
 }
@@ -30,6 +37,8 @@ pub enum Objective {
     Codelength,
     /// Modularity with the resolution gamma (higher is better).
     Modularity,
+    /// Constant Potts model quality with the resolution gamma (higher is better).
+    Cpm,
 }
 
 impl Method {
@@ -37,6 +46,8 @@ impl Method {
     pub fn name(self) -> &'static str {
         match self {
             Method::Infomap => "infomap",
+            Method::Leiden => "leiden",
+            Method::LeidenCpm => "leiden-cpm",
             Method::Louvain => "louvain",
         }
     }
@@ -45,7 +56,8 @@ impl Method {
     pub fn objective(self) -> Objective {
         match self {
             Method::Infomap => Objective::Codelength,
-            Method::Louvain => Objective::Modularity,
+            Method::Leiden | Method::Louvain => Objective::Modularity,
+            Method::LeidenCpm => Objective::Cpm,
         }
     }
 
@@ -53,6 +65,8 @@ impl Method {
     pub fn run<R: Rng>(self, graph: &ParticipantGraph, resolution: f64, rng: &mut R) -> Vec<usize> {
         match self {
             Method::Infomap => infomap(graph, rng),
+            Method::Leiden => leiden(graph, LeidenQuality::Modularity { resolution }, rng),
+            Method::LeidenCpm => leiden(graph, LeidenQuality::Cpm { resolution }, rng),
             Method::Louvain => louvain(graph, resolution, rng),
         }
     }
@@ -62,6 +76,7 @@ impl Method {
         match self.objective() {
             Objective::Codelength => map_equation(graph, labels).codelength,
             Objective::Modularity => modularity(graph, labels, resolution),
+            Objective::Cpm => cpm_quality(graph, labels, resolution),
         }
     }
 
@@ -69,7 +84,7 @@ impl Method {
     pub fn score(self, quality: f64) -> f64 {
         match self.objective() {
             Objective::Codelength => -quality,
-            Objective::Modularity => quality,
+            Objective::Modularity | Objective::Cpm => quality,
         }
     }
 }

@@ -99,6 +99,7 @@ pub fn build_features(cohort: &Cohort, options: &FeatureOptions) -> Result<Featu
     let features = match cohort.kind {
         InputKind::SeedMaps => build_voxels(cohort, options)?,
         InputKind::RegionMatrices => build_edges(cohort, options)?,
+        InputKind::Similarity => return Err(FeatureError::NoFeatures),
     };
     check_not_constant(cohort, &features.matrix)?;
     Ok(features)

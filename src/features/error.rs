@@ -8,6 +8,11 @@ pub enum FeatureError {
     /// A file could not be read or decoded.
     #[error(transparent)]
     Read(#[from] crate::read::ReadError),
+    /// The cohort is a precomputed similarity matrix, which has no per-participant features.
+    #[error(
+        "a precomputed similarity matrix has no per-participant features; maps and comparisons need --inputs"
+    )]
+    NoFeatures,
     /// A participant's values are constant, so its similarity to anyone is undefined.
     #[error("{path}: participant {participant}: all {feature_count} features have the same value; check the file is the right one (a blank map or matrix cannot be compared)")]
     ConstantParticipant {

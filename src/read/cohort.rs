@@ -25,6 +25,8 @@ pub enum InputKind {
     SeedMaps,
     /// R x R region matrices, one per participant or one stacked N x R x R array.
     RegionMatrices,
+    /// A precomputed N x N participant similarity matrix: no features, similarity only.
+    Similarity,
 }
 
 /// Where one participant's values are stored.
@@ -283,6 +285,7 @@ fn describe(kind: InputKind) -> &'static str {
     match kind {
         InputKind::SeedMaps => "NIfTI seed map",
         InputKind::RegionMatrices => "region matrix",
+        InputKind::Similarity => "similarity matrix",
     }
 }
 
