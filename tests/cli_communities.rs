@@ -123,6 +123,11 @@ fn graph_rules() {
         run(&[INPUTS[0], INPUTS[1], "--graph", "knn", "--neighbours", "2.5"], &dir.path().join("bad"));
     assert_eq!(output.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&output.stderr).contains("--neighbours"));
+    // A threshold above every similarity leaves no edge: exit 4 (analysis impossible), nothing written.
+    let output =
+        run(&[INPUTS[0], INPUTS[1], "--graph", "absolute", "--thresholds", "0.999"], &dir.path().join("bad"));
+    assert_eq!(output.status.code(), Some(4));
+    assert!(String::from_utf8_lossy(&output.stderr).contains("no graph of the sweep kept any edge"));
     assert!(!dir.path().join("bad").exists());
 }
 

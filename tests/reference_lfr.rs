@@ -31,9 +31,11 @@ fn recovery_curve_matches_the_reference_packages() {
         let graph = reference_graph(&entry);
         let planted = labels(&entry["planted"]);
         let mut row = format!("| {} |", entry["lfr"]["mixing"]);
-        for (method, reference_key) in
-            [(Method::Infomap, "infomap"), (Method::Leiden, "leidenalg"), (Method::Louvain, "igraph_multilevel")]
-        {
+        for (method, reference_key) in [
+            (Method::Infomap, "infomap"),
+            (Method::Leiden, "leidenalg"),
+            (Method::Louvain, "igraph_multilevel"),
+        ] {
             let best = (0..TRIALS)
                 .map(|trial| {
                     let labels = method.run(&graph, 1.0, &mut strata::seed::rng(5, "test-lfr", &[trial]));
@@ -46,7 +48,11 @@ fn recovery_curve_matches_the_reference_packages() {
             let nmi = normalized_mutual_information(&planted, &best);
             let reference = entry["nmi_to_planted"][reference_key].as_f64().unwrap();
             row += &format!(" {nmi:.3} | {reference:.3} |");
-            assert!(nmi >= reference - NMI_SLACK, "{name} {}: NMI {nmi} vs reference {reference}", method.name());
+            assert!(
+                nmi >= reference - NMI_SLACK,
+                "{name} {}: NMI {nmi} vs reference {reference}",
+                method.name()
+            );
         }
         println!("{row}");
     }

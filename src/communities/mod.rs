@@ -158,6 +158,6 @@ pub struct CommunityResult {
 #[derive(Debug, thiserror::Error)]
 pub enum CommunityError {
     /// Every density of the sweep left a graph without edges.
-    #[error("no density of the sweep kept any edge between participants (all similarities are negative or zero); check the inputs, or raise --densities")]
+    #[error("no graph of the sweep kept any edge between participants (all similarities are negative or zero, or below every --thresholds value); check the inputs, or raise --densities or --neighbours, or lower --thresholds")]
     NoEdges,
 }

@@ -10,7 +10,8 @@ use crate::error::list_ids;
 /// Every warning strata gives, with its likely cause and what to try.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Warning {
-    /// Participants had no edge at some densities of the sweep.
+    /// Participants had no edge in many graphs of the sweep (`densities` counts those graphs,
+    /// whatever the rule).
     IsolatedParticipants {
         /// Densities that entered the consensus.
         densities: usize,
@@ -47,8 +48,9 @@ impl fmt::Display for Warning {
         match self {
             Warning::IsolatedParticipants { densities, participants } => write!(
                 f,
-                "{} participant(s) had no edge in at least half of the {densities} densities of the consensus: {}; \
-                 their similarity to everyone else is low (check their inputs for artefacts), or the sweep is too sparse for this cohort",
+                "{} participant(s) had no edge in at least half of the {densities} graphs of the consensus: {}; \
+                 their similarity to everyone else is low (check their inputs for artefacts), or the sweep is too sparse for this cohort; \
+                 participants alone in most graphs end as community 0 (unassigned)",
                 participants.len(),
                 list_ids(participants)
             ),
@@ -71,8 +73,8 @@ impl fmt::Display for Warning {
             }
             Warning::SingleCommunity => write!(
                 f,
-                "the consensus found one community: no density of the sweep showed subgroups that held together; \
-                 the cohort may be homogeneous at this resolution (try a sparser --densities range or a larger --resolution)"
+                "the consensus found one community: no graph of the sweep showed subgroups that held together; \
+                 the cohort may be homogeneous (no evidence of subgroups at these settings), or try a sparser --densities range, a kNN sweep (--graph knn) or --method leiden"
             ),
         }
     }
