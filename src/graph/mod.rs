@@ -1,9 +1,10 @@
-//! Stage 4: similarity matrix to participant graphs in compressed sparse rows.
+//! Stage 4: similarity matrix to participant graphs in compressed sparse rows, and their measures.
 //!
 //! Proportional-density thresholds keep the strongest positive similarities; negative and zero
 //! similarities never become edges, and participants left without an edge are reported by the
 //! communities stage. Community detection itself is the next stage's job.
 
+pub mod measures;
 mod threshold;
 
 pub use threshold::{proportional_threshold, RankedPairs};
