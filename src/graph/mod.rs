@@ -1,4 +1,4 @@
-//! Stage 4: similarity matrix to participant graphs in compressed sparse rows.
+//! Stage 4: similarity matrix to participant graphs in compressed sparse rows, and their measures.
 //!
 //! Proportional-density thresholds keep the strongest positive similarities, k-nearest-neighbour
 //! graphs each participant's most similar others, absolute thresholds every similarity above a
@@ -6,6 +6,7 @@
 //! communities stage. Community detection itself is the next stage's job.
 
 mod file;
+pub mod measures;
 mod sweep;
 mod threshold;
 
