@@ -21,8 +21,8 @@ use crate::maps::{self, MapName, Statistic, WriteError};
 use crate::read::{self, Cohort, InputOptions};
 use crate::report::tables::format_number;
 use crate::report::{
-    file_sha256, utc_timestamp, CommunitySummary, ComparisonSummary, InputDigest, Log, OutputFolder,
-    Provenance, RunSummary, Table, Warning,
+    file_sha256, utc_timestamp, CommunitySummary, ComparisonSummary, GraphMeasuresSummary, InputDigest, Log,
+    OutputFolder, Provenance, RunSummary, Table, Warning,
 };
 use crate::similarity::{self, SimilarityMatrix};
 use crate::stats;
@@ -218,6 +218,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         )
     })?;
 
+    let measured = timings.time(log, "graph measures", || measure_graph(config, &similarity, &communities));
+
     let mut warnings = Vec::new();
     collect_community_warnings(&cohort, &communities, config, &mut warnings);
     let missing: Vec<String> = groups
@@ -244,7 +246,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     };
 
     timings.time(log, "write", || {
-        write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity)
+        write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity)?;
+        write_graph_measures(&output, &cohort, &communities, &measured)
     })?;
     for warning in &warnings {
         log.warn(warning);
@@ -260,6 +263,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         warnings,
         started,
     );
+    let summary = RunSummary { graph_measures: Some(measured.summary()), ..summary };
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
@@ -632,6 +636,7 @@ fn build_summary(
         median_consistency: median(communities.consistency.iter().copied().filter(|c| !c.is_nan()).collect()),
         community_count: communities.partition.community_count(),
         communities: community_rows,
+        graph_measures: None,
         consensus_modularity: communities.consensus_modularity,
         consensus_iterations: communities.consensus_iterations,
         comparisons,
@@ -639,6 +644,97 @@ fn build_summary(
         warnings,
         seconds: started.elapsed().as_secs_f64(),
     }
+}
+
+/// The graph measures of the run: the graph they were taken on and the measures.
+struct MeasuredGraph {
+    level: crate::graph::SweepLevel,
+    density: f64,
+    edges: usize,
+    nodes: crate::graph::measures::NodeMeasures,
+    whole: crate::graph::measures::GraphMeasures,
+}
+
+impl MeasuredGraph {
+    fn summary(&self) -> GraphMeasuresSummary {
+        let small_world = self.whole.small_world.as_ref();
+        GraphMeasuresSummary {
+            graph_rule: self.level.rule().to_string(),
+            parameter: self.level.parameter(),
+            density: self.density,
+            edges: self.edges,
+            mean_clustering: self.whole.mean_clustering,
+            mean_clustering_weighted: self.whole.mean_clustering_weighted,
+            transitivity: self.whole.transitivity,
+            path_length: self.whole.path_length,
+            path_length_weighted: self.whole.path_length_weighted,
+            efficiency: self.whole.efficiency,
+            efficiency_weighted: self.whole.efficiency_weighted,
+            small_world_sigma: small_world.map(|s| s.sigma),
+            random_transitivity: small_world.map(|s| s.random_clustering),
+            random_path_length: small_world.map(|s| s.random_path_length),
+            random_graphs: small_world.map_or(0, |s| s.random_graphs),
+        }
+    }
+}
+
+/// The graph whose measures are reported: the graph of the sweep with the largest consensus
+/// weight (the strongest structure), or the middle graph of the sweep when none entered it.
+fn measure_graph(
+    config: &RunConfig,
+    similarity: &SimilarityMatrix,
+    communities: &CommunityResult,
+) -> MeasuredGraph {
+    let rows = &communities.densities;
+    let chosen = rows
+        .iter()
+        .enumerate()
+        .filter(|(_, row)| row.consensus_weight > 0.0)
+        .max_by(|a, b| a.1.consensus_weight.total_cmp(&b.1.consensus_weight).then(b.0.cmp(&a.0)))
+        .map_or(rows.len() / 2, |(index, _)| index);
+    let level = rows[chosen].level;
+    let graph = crate::graph::SweepGraphs::new(similarity, config.edge_weights).graph(level);
+    let nodes = crate::graph::measures::node_measures(
+        &graph,
+        &communities.partition.membership,
+        crate::graph::measures::LabelZero::Unassigned,
+    );
+    let whole = crate::graph::measures::graph_measures(&graph, config.random_graphs, config.seed);
+    MeasuredGraph { level, density: rows[chosen].density, edges: graph.edge_count(), nodes, whole }
+}
+
+/// graph_measures.tsv: per participant, the measures of the reported graph.
+fn write_graph_measures(
+    output: &OutputFolder,
+    cohort: &Cohort,
+    communities: &CommunityResult,
+    measured: &MeasuredGraph,
+) -> Result<(), Error> {
+    let mut table = Table::new([
+        "participant_id",
+        "community",
+        "degree",
+        "strength",
+        "clustering",
+        "clustering_weighted",
+        "participation",
+        "within_module_z",
+    ]);
+    let nodes = &measured.nodes;
+    for (row, id) in cohort.participant_ids.iter().enumerate() {
+        table.push(vec![
+            id.clone(),
+            communities.partition.membership[row].to_string(),
+            nodes.degree[row].to_string(),
+            format_number(nodes.strength[row]),
+            format_number(nodes.clustering[row]),
+            format_number(nodes.clustering_weighted[row]),
+            format_number(nodes.participation[row]),
+            format_number(nodes.within_module_z[row]),
+        ]);
+    }
+    table.write(&output.path().join("graph_measures.tsv"))?;
+    Ok(())
 }
 
 /// Median of `values` (NaN when empty).

@@ -69,6 +69,19 @@ fn every_method_runs_and_reports_its_quality() {
             assert!(codelengths.iter().all(|c| c == "n/a"));
             assert_eq!(column(&sweep, "quality"), column(&sweep, "modularity"));
         }
+        // graph_measures.tsv: one row per participant; clustering and participation in [0, 1].
+        let measures = out.join("graph_measures.tsv");
+        assert_eq!(column(&measures, "participant_id").len(), 24);
+        for name in ["clustering", "clustering_weighted"] {
+            for value in column(&measures, name) {
+                let value: f64 = value.parse().unwrap();
+                assert!((0.0..=1.0).contains(&value), "{name} {value}");
+            }
+        }
+        let graph = &summary["graph_measures"];
+        assert_eq!(graph["random_graphs"], 10);
+        assert!(graph["small_world_sigma"].as_f64().unwrap() > 0.0);
+        assert!(graph["transitivity"].as_f64().unwrap() <= 1.0);
         // Consistency: the mean co-assignment with the own community, in [0, 1], or n/a for
         // unassigned participants.
         let participants = out.join("participants.tsv");

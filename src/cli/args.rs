@@ -38,7 +38,7 @@ pub struct Cli {
 pub enum Command {
     /// Run the whole analysis on a cohort: read, similarity, communities, comparisons, outputs.
     #[command(after_help = RUN_EXAMPLE)]
-    Run(RunArgs),
+    Run(Box<RunArgs>),
     /// Generate the fictional Northfield demo cohort and run the whole analysis on it.
     Demo(DemoArgs),
     /// Partition any weighted undirected graph (edge list or dense .npy) into communities:
@@ -249,6 +249,11 @@ pub struct RunArgs {
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_CONSENSUS_THRESHOLD, help_heading = "Graph and communities")]
     pub consensus_threshold: f64,
 
+    /// Degree-matched random graphs behind the small-world index of the reported participant
+    /// graph (graph_measures.tsv, summary.json); 0 skips the index.
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_RANDOM_GRAPHS, help_heading = "Graph and communities")]
+    pub random_graphs: usize,
+
     /// Output folder (created; refused if it exists and is not empty, unless --force).
     #[arg(long, value_name = "DIR", help_heading = "Output")]
     pub out: PathBuf,
@@ -294,6 +299,7 @@ impl RunArgs {
             resolution: self.resolution,
             min_community_size: self.min_community_size,
             consensus_threshold: self.consensus_threshold,
+            random_graphs: self.random_graphs,
             alpha: self.alpha,
             seed: self.seed,
             threads: self.threads,

@@ -14,5 +14,5 @@ pub mod tables;
 pub use log::Log;
 pub use output::OutputFolder;
 pub use provenance::{file_sha256, utc_timestamp, InputDigest, Provenance};
-pub use summary::{CommunitySummary, ComparisonSummary, RunSummary, Warning};
+pub use summary::{CommunitySummary, ComparisonSummary, GraphMeasuresSummary, RunSummary, Warning};
 pub use tables::Table;

@@ -120,6 +120,42 @@ pub struct ComparisonSummary {
     pub peak_t: f64,
 }
 
+/// Measures of the participant graph with the strongest structure (`summary.json` key
+/// `graph_measures`; per-participant measures are in graph_measures.tsv).
+#[derive(Debug, Clone, Serialize)]
+pub struct GraphMeasuresSummary {
+    /// The graph's rule (`density`, `knn`, `mutual_knn`, `absolute`).
+    pub graph_rule: String,
+    /// The rule's parameter.
+    pub parameter: f64,
+    /// Density reached.
+    pub density: f64,
+    /// Undirected edges.
+    pub edges: usize,
+    /// Mean binary local clustering (zeros counted).
+    pub mean_clustering: f64,
+    /// Mean weighted local clustering (Onnela et al. 2005).
+    pub mean_clustering_weighted: f64,
+    /// Transitivity: 3 x triangles / connected triples.
+    pub transitivity: f64,
+    /// Characteristic path length in hops over connected pairs.
+    pub path_length: f64,
+    /// Characteristic path length with edge length 1 / w.
+    pub path_length_weighted: f64,
+    /// Global efficiency in hops.
+    pub efficiency: f64,
+    /// Global efficiency with edge length 1 / w.
+    pub efficiency_weighted: f64,
+    /// Small-world index sigma (Humphries & Gurney 2008); null when not computed.
+    pub small_world_sigma: Option<f64>,
+    /// Mean transitivity of the degree-matched random graphs.
+    pub random_transitivity: Option<f64>,
+    /// Mean path length of the degree-matched random graphs.
+    pub random_path_length: Option<f64>,
+    /// Number of random graphs (0 = small-world index not computed).
+    pub random_graphs: usize,
+}
+
 /// Everything a run reports.
 #[derive(Debug, Clone, Serialize)]
 pub struct RunSummary {
@@ -168,6 +204,8 @@ pub struct RunSummary {
     pub consensus_iterations: usize,
     /// Median per-participant consistency (mean co-assignment with the own community).
     pub median_consistency: f64,
+    /// Measures of the participant graph with the strongest structure.
+    pub graph_measures: Option<GraphMeasuresSummary>,
     /// The contrasts.
     pub comparisons: Vec<ComparisonSummary>,
     /// The false-discovery level used in `significant_features`.
@@ -222,6 +260,20 @@ impl RunSummary {
             self.consensus_modularity,
             self.median_consistency
         );
+        if let Some(graph) = &self.graph_measures {
+            let sigma = graph.small_world_sigma.map_or(String::new(), |sigma| {
+                format!(", small-world sigma {sigma:.2} ({} random graphs)", graph.random_graphs)
+            });
+            let _ = writeln!(
+                text,
+                "Participant graph ({} {}, the strongest structure): clustering {:.2}, path length {:.2}, efficiency {:.2}{sigma}.",
+                graph.graph_rule,
+                graph.parameter,
+                graph.mean_clustering,
+                graph.path_length,
+                graph.efficiency
+            );
+        }
         let (a, b) = &self.contrast;
         for comparison in &self.comparisons {
             let scope = if comparison.scope == "all" {
