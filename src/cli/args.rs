@@ -42,7 +42,7 @@ pub enum Command {
     /// Generate the fictional Northfield demo cohort and run the whole analysis on it.
     Demo(DemoArgs),
     /// Partition any weighted undirected graph (edge list or dense .npy) into communities:
-    /// node<TAB>community lines to standard output, the quality to standard error.
+    /// `node<TAB>community` lines to standard output, the quality to standard error.
     #[command(after_help = PARTITION_EXAMPLE)]
     Partition(PartitionArgs),
 }

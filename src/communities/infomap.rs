@@ -372,7 +372,7 @@ fn coarse_tune<R: Rng>(graph: &FlowGraph, labels: &[usize], rng: &mut R) -> Vec<
 ///
 /// The core loop (greedy moves that shorten the codelength, then aggregation of modules into
 /// nodes, repeated while modules merge) followed by alternating fine and coarse tuning while a
-/// round shortens the codelength by more than [`MIN_IMPROVEMENT`] bits.
+/// round shortens the codelength by more than `MIN_IMPROVEMENT` (1e-10) bits.
 ///
 /// # Arguments
 /// * `graph`: weighted undirected graph with non-negative weights; self-loops add to a node's
