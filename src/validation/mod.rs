@@ -1,7 +1,13 @@
-//! Stage 6: are the communities real? For now: partition agreement (ARI, NMI, VI), used to
-//! compare a partition with planted truth, with another density's partition, or with itself
-//! under resampling.
+//! Stage 6: are the communities real? Partition agreement (ARI, NMI, VI), used to compare a
+//! partition with planted truth, with another density's partition, or with itself under
+//! resampling; and resampling stability (subsample ARI, per-community best-match Jaccard,
+//! per-participant confidence).
 
 mod agreement;
+mod stability;
 
 pub use agreement::{adjusted_rand_index, normalized_mutual_information, variation_of_information};
+pub use stability::{
+    compare_subsample, stability, StabilityError, StabilityOptions, StabilityResult, SubsampleComparison,
+    DEFAULT_SUBSAMPLES, DEFAULT_SUBSAMPLE_FRACTION, MIN_SUBSAMPLE_PARTICIPANTS,
+};
