@@ -633,7 +633,7 @@ fn build_summary(
             .collect(),
         consensus_codelength: communities.consensus_codelength.map(|c| c.codelength),
         consensus_relative_savings: communities.consensus_codelength.map(|c| c.relative_savings()),
-        median_consistency: median(communities.consistency.iter().copied().filter(|c| !c.is_nan()).collect()),
+        median_consistency: crate::validation::median(&communities.consistency),
         community_count: communities.partition.community_count(),
         communities: community_rows,
         graph_measures: None,
@@ -735,20 +735,6 @@ fn write_graph_measures(
     }
     table.write(&output.path().join("graph_measures.tsv"))?;
     Ok(())
-}
-
-/// Median of `values` (NaN when empty).
-fn median(mut values: Vec<f64>) -> f64 {
-    if values.is_empty() {
-        return f64::NAN;
-    }
-    values.sort_by(f64::total_cmp);
-    let middle = values.len() / 2;
-    if values.len() % 2 == 1 {
-        values[middle]
-    } else {
-        (values[middle - 1] + values[middle]) / 2.0
-    }
 }
 
 fn write_tables(

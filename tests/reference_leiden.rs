@@ -5,12 +5,14 @@
 //! (leidenalg's best of 10 seeded runs, `n_iterations = -1`). Modularity is strata's own
 //! `modularity`, which matches networkx (tests/reference_communities.rs).
 
+mod util;
+
 use std::collections::VecDeque;
 use std::time::Instant;
 
-use serde_json::Value;
 use strata::communities::{cpm_quality, leiden, louvain, modularity, LeidenQuality};
 use strata::graph::ParticipantGraph;
+use util::graphs::{labels, reference, reference_entry, reference_graph};
 
 /// Seeded trials per graph, as in the generator (`TRIALS = 10`).
 const TRIALS: u64 = 10;
@@ -22,28 +24,9 @@ const TEST_SEED: u64 = 1;
 const MODULARITY_GRAPHS: [&str; 8] =
     ["lesmis", "lfr-mu01", "lfr-mu02", "lfr-mu03", "lfr-mu04", "lfr-mu05", "lfr-mu06", "lfr-mu07"];
 
-fn reference() -> Value {
-    let text =
-        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/graphs_reference.json"))
-            .expect("tests/data/graphs_reference.json (made by tests/data/generators/graphs.py)");
-    serde_json::from_str(&text).unwrap()
-}
-
-fn load(name: &str, nodes: usize) -> ParticipantGraph {
-    let path = format!("{}/tests/data/graphs/{name}.tsv", env!("CARGO_MANIFEST_DIR"));
-    let text = std::fs::read_to_string(&path).unwrap_or_else(|_| panic!("{path} (graphs.py)"));
-    let edges: Vec<(usize, usize, f64)> = text
-        .lines()
-        .map(|line| {
-            let fields: Vec<&str> = line.split('\t').collect();
-            (fields[0].parse().unwrap(), fields[1].parse().unwrap(), fields[2].parse().unwrap())
-        })
-        .collect();
-    ParticipantGraph::from_edges(nodes, &edges)
-}
-
-fn labels(value: &Value) -> Vec<usize> {
-    value.as_array().unwrap().iter().map(|v| v.as_u64().unwrap() as usize).collect()
+/// The graph `name` of tests/data/graphs, with its node count from the reference file.
+fn load(name: &str) -> ParticipantGraph {
+    reference_graph(&reference_entry(name))
 }
 
 /// Communities of `membership` that are not connected within themselves (BFS inside each).
@@ -103,7 +86,7 @@ fn leiden_reaches_the_published_karate_optimum() {
     const OPTIMUM: f64 = 0.419_789_612_1;
     let reference = reference();
     let entry = &reference["graphs"]["karate"];
-    let graph = load("karate", entry["nodes"].as_u64().unwrap() as usize);
+    let graph = load("karate");
     let quality = LeidenQuality::Modularity { resolution: 1.0 };
     let (best, _) = best_of_trials("karate", &graph, quality, |m| modularity(&graph, m, 1.0));
     let leidenalg = entry["leiden_modularity"]["modularity"].as_f64().unwrap();
@@ -121,7 +104,7 @@ fn leiden_matches_leidenalg_modularity_on_lesmis_and_lfr() {
     let mut failures = Vec::new();
     for name in MODULARITY_GRAPHS {
         let entry = &reference["graphs"][name];
-        let graph = load(name, entry["nodes"].as_u64().unwrap() as usize);
+        let graph = load(name);
         let started = Instant::now();
         let (best, _) = best_of_trials(name, &graph, quality, |m| modularity(&graph, m, 1.0));
         let per_trial = started.elapsed().as_secs_f64() / TRIALS as f64;
@@ -145,7 +128,7 @@ fn cpm_quality_and_leiden_match_leidenalg_on_karate() {
     const LEIDENALG_UNDIRECTED_FACTOR: f64 = 2.0;
     let reference = reference();
     let entry = &reference["graphs"]["karate"];
-    let graph = load("karate", entry["nodes"].as_u64().unwrap() as usize);
+    let graph = load("karate");
     for case in entry["leiden_cpm"].as_array().unwrap() {
         let resolution = case["resolution"].as_f64().unwrap();
         let expected = case["quality"].as_f64().unwrap() / LEIDENALG_UNDIRECTED_FACTOR;
@@ -164,9 +147,8 @@ fn leiden_communities_are_connected_where_louvain_can_disconnect() {
     // often on noisy graphs; Leiden guarantees connected ones. LFR graphs at mixing 0.5-0.7
     // (graphs.py), for modularity and CPM. strata's Louvain count is printed for contrast only
     // (it found none on these graphs when this test was written).
-    let reference = reference();
     for name in ["lfr-mu05", "lfr-mu06", "lfr-mu07", "karate", "lesmis"] {
-        let graph = load(name, reference["graphs"][name]["nodes"].as_u64().unwrap() as usize);
+        let graph = load(name);
         let density = 2.0 * graph.total_weight() / (graph.node_count() as f64).powi(2);
         // best_of_trials asserts connectivity of every trial.
         best_of_trials(name, &graph, LeidenQuality::Modularity { resolution: 0.5 }, |m| {

@@ -170,8 +170,8 @@ impl FlowGraph {
         graph
     }
 
-    /// Codelength of `labels` on this network, up to the constant node-entropy term.
-    fn module_terms(&self, labels: &[usize]) -> f64 {
+    /// Exit flow and flow of each module of `labels` (labels below the node count).
+    fn module_totals(&self, labels: &[usize]) -> (Vec<f64>, Vec<f64>) {
         let count = labels.iter().copied().max().map_or(0, |max| max + 1);
         let mut exit = vec![0.0; count];
         let mut flow = vec![0.0; count];
@@ -183,6 +183,12 @@ impl FlowGraph {
                 }
             }
         }
+        (exit, flow)
+    }
+
+    /// Codelength of `labels` on this network, up to the constant node-entropy term.
+    fn module_terms(&self, labels: &[usize]) -> f64 {
+        let (exit, flow) = self.module_totals(labels);
         let total_exit: f64 = exit.iter().sum();
         plogp(total_exit) - 2.0 * exit.iter().map(|&q| plogp(q)).sum::<f64>()
             + exit.iter().zip(&flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>()
@@ -426,18 +432,9 @@ pub fn infomap<R: Rng>(graph: &ParticipantGraph, rng: &mut R) -> Vec<usize> {
 /// Rosvall & Bergstrom 2008, PNAS 105:1118, eq. 4.
 pub fn map_equation(graph: &ParticipantGraph, membership: &[usize]) -> Codelength {
     let flow = FlowGraph::from_graph(graph);
-    let (labels, count) = renumber(membership);
+    let labels = renumber(membership).0;
     let node_entropy = -flow.flow.iter().map(|&p| plogp(p)).sum::<f64>();
-    let mut exit = vec![0.0; count];
-    let mut module_flow = vec![0.0; count];
-    for node in 0..flow.len() {
-        module_flow[labels[node]] += flow.flow[node];
-        for (target, f) in flow.links(node) {
-            if labels[target] != labels[node] {
-                exit[labels[node]] += f;
-            }
-        }
-    }
+    let (exit, module_flow) = flow.module_totals(&labels);
     let total_exit: f64 = exit.iter().sum();
     let index = plogp(total_exit) - exit.iter().map(|&q| plogp(q)).sum::<f64>();
     let module = exit.iter().zip(&module_flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>()

@@ -8,6 +8,6 @@ mod stability;
 
 pub use agreement::{adjusted_rand_index, normalized_mutual_information, variation_of_information};
 pub use stability::{
-    compare_subsample, stability, StabilityError, StabilityOptions, StabilityResult, SubsampleComparison,
-    DEFAULT_SUBSAMPLES, DEFAULT_SUBSAMPLE_FRACTION, MIN_SUBSAMPLE_PARTICIPANTS,
+    compare_subsample, median, stability, StabilityError, StabilityOptions, StabilityResult,
+    SubsampleComparison, DEFAULT_SUBSAMPLES, DEFAULT_SUBSAMPLE_FRACTION, MIN_SUBSAMPLE_PARTICIPANTS,
 };

@@ -377,7 +377,7 @@ fn summarise(partition: &Partition, comparisons: &[(Vec<usize>, SubsampleCompari
 }
 
 /// Median of the finite values (mean of the middle two for an even count); NaN if none.
-fn median(values: &[f64]) -> f64 {
+pub fn median(values: &[f64]) -> f64 {
     let mut finite: Vec<f64> = values.iter().copied().filter(|value| value.is_finite()).collect();
     if finite.is_empty() {
         return f64::NAN;
