@@ -109,6 +109,12 @@ pub struct RunConfig {
     pub consensus_threshold: f64,
     /// Degree-matched random graphs for the small-world index (0 skips it).
     pub random_graphs: usize,
+    /// Null cohorts of the rotation null test (0 = no null test).
+    pub null_draws: usize,
+    /// Subsamples of the resampling-stability check (0 = no stability check).
+    pub subsamples: usize,
+    /// Share of participants drawn per subsample, in (0, 1].
+    pub subsample_fraction: f64,
     /// False-discovery level for counting surviving features.
     pub alpha: f64,
     /// Run seed.
@@ -288,6 +294,9 @@ impl RunConfig {
             min_community_size: DEFAULT_MIN_COMMUNITY_SIZE,
             consensus_threshold: DEFAULT_CONSENSUS_THRESHOLD,
             random_graphs: DEFAULT_RANDOM_GRAPHS,
+            null_draws: crate::validation::DEFAULT_NULL_DRAWS,
+            subsamples: crate::validation::DEFAULT_SUBSAMPLES,
+            subsample_fraction: crate::validation::DEFAULT_SUBSAMPLE_FRACTION,
             alpha: DEFAULT_ALPHA,
             seed: DEFAULT_SEED,
             threads: 0,
@@ -316,6 +325,15 @@ impl RunConfig {
         }
         if !(self.alpha > 0.0 && self.alpha < 1.0) {
             return Err(invalid("--alpha", format!("{} must lie strictly between 0 and 1", self.alpha)));
+        }
+        if !(self.subsample_fraction > 0.0 && self.subsample_fraction < 1.0) {
+            return Err(invalid(
+                "--subsample-fraction",
+                format!(
+                    "{} must lie strictly between 0 and 1 (a share of participants drawn per subsample, for example 0.8)",
+                    self.subsample_fraction
+                ),
+            ));
         }
         if self.min_community_size == 0 {
             return Err(invalid("--min-community-size", "must be at least 1"));

@@ -21,6 +21,12 @@ pub enum Error {
     /// Community detection could not run on the participant graph.
     #[error(transparent)]
     Community(#[from] crate::communities::CommunityError),
+    /// The null test could not run.
+    #[error(transparent)]
+    Null(#[from] crate::validation::NullError),
+    /// The resampling-stability check could not run.
+    #[error(transparent)]
+    Stability(#[from] crate::validation::StabilityError),
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
@@ -64,7 +70,7 @@ impl Error {
         match self {
             Error::Config(_) => exit_code::USAGE,
             Error::Read(_) | Error::Feature(_) => exit_code::INPUT,
-            Error::Community(_) => exit_code::ANALYSIS,
+            Error::Community(_) | Error::Null(_) | Error::Stability(_) => exit_code::ANALYSIS,
             Error::Write(_) => exit_code::OUTPUT,
             Error::Demo(_) => exit_code::OUTPUT,
         }

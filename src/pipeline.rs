@@ -202,26 +202,33 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         config.method.name(),
         config.levels().len()
     ));
-    let communities = timings.time(log, "communities", || {
-        communities::detect(
-            &similarity,
-            &CommunityOptions {
-                levels: config.levels(),
-                edge_weights: config.edge_weights,
-                method: config.method,
-                trials: config.trials,
-                resolution: config.resolution,
-                min_community_size: config.min_community_size,
-                consensus_threshold: config.consensus_threshold,
-                seed: config.seed,
-            },
-        )
-    })?;
+    let community_options = CommunityOptions {
+        levels: config.levels(),
+        edge_weights: config.edge_weights,
+        method: config.method,
+        trials: config.trials,
+        resolution: config.resolution,
+        min_community_size: config.min_community_size,
+        consensus_threshold: config.consensus_threshold,
+        seed: config.seed,
+    };
+    let communities =
+        timings.time(log, "communities", || communities::detect(&similarity, &community_options))?;
+    let validated = validate(
+        config,
+        log,
+        &mut timings,
+        &similarity,
+        features.as_ref(),
+        &communities,
+        &community_options,
+    )?;
 
     let measured = timings.time(log, "graph measures", || measure_graph(config, &similarity, &communities));
 
     let mut warnings = Vec::new();
     collect_community_warnings(&cohort, &communities, config, &mut warnings);
+    warnings.extend(validated.warnings.iter().cloned());
     let missing: Vec<String> = groups
         .labels
         .iter()
@@ -246,7 +253,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     };
 
     timings.time(log, "write", || {
-        write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity)?;
+        write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity, &validated)?;
+        write_validation_tables(&output, &communities, &validated)?;
         write_graph_measures(&output, &cohort, &communities, &measured)
     })?;
     for warning in &warnings {
@@ -263,7 +271,17 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         warnings,
         started,
     );
-    let summary = RunSummary { graph_measures: Some(measured.summary()), ..summary };
+    let summary = RunSummary {
+        graph_measures: Some(measured.summary()),
+        subgroups_supported: validated.null_summary.as_ref().map(|null| null.subgroups_supported),
+        verdict: crate::report::verdict(
+            communities.partition.community_count(),
+            validated.null_summary.as_ref(),
+        ),
+        null_test: validated.null_summary.clone(),
+        stability: validated.stability_summary.clone(),
+        ..summary
+    };
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
@@ -280,6 +298,125 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     write_json(&output.path().join("dataset_description.json"), &dataset_description())?;
     output.commit()?;
     Ok(summary)
+}
+
+/// What the validation stage found: the null test and the resampling stability, each `None`
+/// when switched off.
+struct Validated {
+    null: Option<crate::validation::NullResult>,
+    null_summary: Option<crate::report::NullTestSummary>,
+    stability: Option<crate::validation::StabilityResult>,
+    stability_summary: Option<crate::report::StabilitySummary>,
+    warnings: Vec<Warning>,
+}
+
+/// Stage 6: the rotation null test and the resampling stability of the consensus partition.
+fn validate(
+    config: &RunConfig,
+    log: &Log,
+    timings: &mut Timings,
+    similarity: &SimilarityMatrix,
+    features: Option<&Features>,
+    communities: &CommunityResult,
+    options: &CommunityOptions,
+) -> Result<Validated, Error> {
+    let mut warnings = Vec::new();
+    let (null, null_summary) = if config.null_draws > 0 {
+        log.note(&format!(
+            "null test: {} null cohorts through the same sweep and consensus",
+            config.null_draws
+        ));
+        // The rotation acts on the centred feature rows before standardisation (docs/methods.md).
+        let row_norms: Option<Vec<f64>> = features.map(|features| {
+            let (_, inverse_norms) = similarity::standardise_rows(&features.matrix);
+            inverse_norms.iter().map(|&inverse| if inverse > 0.0 { 1.0 / inverse } else { 0.0 }).collect()
+        });
+        let null_options = crate::validation::NullOptions {
+            draws: config.null_draws,
+            alpha: config.alpha,
+            seed: config.seed,
+        };
+        let result = timings.time(log, "null test", || {
+            crate::validation::null_test(
+                similarity,
+                row_norms.as_deref(),
+                communities,
+                options,
+                &null_options,
+            )
+        })?;
+        let summary = crate::report::null_summary(&result);
+        if !summary.subgroups_supported && communities.partition.community_count() >= 2 {
+            warnings.push(Warning::NotAboveNull { p_value: summary.p_value, alpha: summary.alpha });
+        }
+        (Some(result), Some(summary))
+    } else {
+        (None, None)
+    };
+    let (stability, stability_summary) = if config.subsamples > 0 {
+        log.note(&format!(
+            "stability: {} subsamples of {:.0}% of the participants",
+            config.subsamples,
+            100.0 * config.subsample_fraction
+        ));
+        let stability_options = crate::validation::StabilityOptions {
+            subsamples: config.subsamples,
+            fraction: config.subsample_fraction,
+            seed: config.seed,
+        };
+        let result = timings.time(log, "stability", || {
+            crate::validation::stability(similarity, &communities.partition, options, &stability_options)
+        })?;
+        let (summary, stability_warnings) = crate::report::stability_summary(
+            &result,
+            &communities.partition,
+            config.subsamples,
+            config.subsample_fraction,
+        );
+        warnings.extend(stability_warnings);
+        (Some(result), Some(summary))
+    } else {
+        (None, None)
+    };
+    Ok(Validated { null, null_summary, stability, stability_summary, warnings })
+}
+
+/// `stability.tsv` (one row per community) and `null_distribution.tsv` (one row per null cohort).
+fn write_validation_tables(
+    output: &OutputFolder,
+    communities: &CommunityResult,
+    validated: &Validated,
+) -> Result<(), Error> {
+    if let (Some(result), Some(summary)) = (&validated.stability, &validated.stability_summary) {
+        let mut table = Table::new(["community", "size", "stability", "median_confidence"]);
+        for community in &summary.communities {
+            table.push(vec![
+                community.community.to_string(),
+                communities.partition.size(community.community).to_string(),
+                format_number(community.stability),
+                format_number(community.median_confidence),
+            ]);
+        }
+        table.write(&output.path().join("stability.tsv"))?;
+        let mut subsamples = Table::new(["subsample", "ari"]);
+        for (index, ari) in result.subsample_ari.iter().enumerate() {
+            subsamples.push(vec![(index + 1).to_string(), format_number(*ari)]);
+        }
+        subsamples.write(&output.path().join("subsamples.tsv"))?;
+    }
+    if let Some(null) = &validated.null {
+        let mut table = Table::new(["draw", "structure", "consensus", "communities"]);
+        for (index, draw) in null.null.iter().enumerate() {
+            table.push(vec![
+                (index + 1).to_string(),
+                format_number(draw.structure),
+                format_number(draw.consensus),
+                draw.communities.to_string(),
+            ]);
+        }
+        table.write(&output.path().join("null_distribution.tsv"))?;
+    }
+    Ok(())
 }
 
 fn collect_community_warnings(
@@ -637,6 +774,10 @@ fn build_summary(
         community_count: communities.partition.community_count(),
         communities: community_rows,
         graph_measures: None,
+        subgroups_supported: None,
+        verdict: String::new(),
+        null_test: None,
+        stability: None,
         consensus_modularity: communities.consensus_modularity,
         consensus_iterations: communities.consensus_iterations,
         comparisons,
@@ -745,6 +886,7 @@ fn write_tables(
     communities: &CommunityResult,
     comparisons: &[ComparisonSummary],
     similarity: &SimilarityMatrix,
+    validated: &Validated,
 ) -> Result<(), Error> {
     let dir = output.path();
     // participants.tsv: the analysed input rows plus the community.
@@ -752,13 +894,20 @@ fn write_tables(
     let mut columns: Vec<String> = table.columns().to_vec();
     columns.push("community".into());
     columns.push("consistency".into());
+    if validated.stability.is_some() {
+        columns.push("confidence".into());
+    }
     let mut participants = Table::new(columns);
-    for ((row, community), consistency) in
-        table.rows().iter().zip(&communities.partition.membership).zip(&communities.consistency)
+    let cell = |value: f64| if value.is_nan() { MISSING.to_string() } else { format_number(value) };
+    for (index, ((row, community), consistency)) in
+        table.rows().iter().zip(&communities.partition.membership).zip(&communities.consistency).enumerate()
     {
         let mut cells = row.clone();
         cells.push(community.to_string());
-        cells.push(if consistency.is_nan() { MISSING.to_string() } else { format_number(*consistency) });
+        cells.push(cell(*consistency));
+        if let Some(stability) = &validated.stability {
+            cells.push(cell(stability.confidence[index]));
+        }
         participants.push(cells);
     }
     participants.write(&dir.join("participants.tsv"))?;

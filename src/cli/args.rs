@@ -254,6 +254,20 @@ pub struct RunArgs {
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_RANDOM_GRAPHS, help_heading = "Graph and communities")]
     pub random_graphs: usize,
 
+    /// Null cohorts of the null test of "are the subgroups real": each is drawn from one
+    /// Gaussian population with the cohort's own mean and covariance (a random rotation of the
+    /// participants) and runs through the same sweep, communities and consensus. The smallest
+    /// attainable p is 1 / (NUM + 1); 0 skips the test.
+    #[arg(long, value_name = "NUM", default_value_t = crate::validation::DEFAULT_NULL_DRAWS, help_heading = "Validation")]
+    pub null_draws: usize,
+    /// Subsamples of the resampling-stability check: each draws --subsample-fraction of the
+    /// participants and reruns graphs and communities on their similarity; 0 skips the check.
+    #[arg(long, value_name = "NUM", default_value_t = crate::validation::DEFAULT_SUBSAMPLES, help_heading = "Validation")]
+    pub subsamples: usize,
+    /// Share of participants drawn (without replacement) per subsample, in (0, 1).
+    #[arg(long, value_name = "NUM", default_value_t = crate::validation::DEFAULT_SUBSAMPLE_FRACTION, help_heading = "Validation")]
+    pub subsample_fraction: f64,
+
     /// Output folder (created; refused if it exists and is not empty, unless --force).
     #[arg(long, value_name = "DIR", help_heading = "Output")]
     pub out: PathBuf,
@@ -300,6 +314,9 @@ impl RunArgs {
             min_community_size: self.min_community_size,
             consensus_threshold: self.consensus_threshold,
             random_graphs: self.random_graphs,
+            null_draws: self.null_draws,
+            subsamples: self.subsamples,
+            subsample_fraction: self.subsample_fraction,
             alpha: self.alpha,
             seed: self.seed,
             threads: self.threads,

@@ -10,9 +10,14 @@ mod output;
 mod provenance;
 mod summary;
 pub mod tables;
+mod verdict;
 
 pub use log::Log;
 pub use output::OutputFolder;
 pub use provenance::{file_sha256, utc_timestamp, InputDigest, Provenance};
-pub use summary::{CommunitySummary, ComparisonSummary, GraphMeasuresSummary, RunSummary, Warning};
+pub use summary::{
+    CommunityStability, CommunitySummary, ComparisonSummary, GraphMeasuresSummary, NullTestSummary,
+    RunSummary, StabilitySummary, Warning, LOW_MEDIAN_ARI, UNSTABLE_JACCARD,
+};
 pub use tables::Table;
+pub use verdict::{null_summary, stability_summary, verdict};

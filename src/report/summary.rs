@@ -41,7 +41,33 @@ pub enum Warning {
     },
     /// The consensus found a single community.
     SingleCommunity,
+    /// The community structure is not stronger than one homogeneous population gives.
+    NotAboveNull {
+        /// The null test's p-value of the sweep structure.
+        p_value: f64,
+        /// The level in force.
+        alpha: f64,
+    },
+    /// Communities whose members do not stay together when participants are resampled.
+    UnstableCommunities {
+        /// (community, mean best-match Jaccard) of each unstable community.
+        communities: Vec<(usize, f64)>,
+    },
+    /// Subsample partitions agree poorly with the full partition.
+    LowSubsampleAgreement {
+        /// Median adjusted Rand index over the subsamples.
+        median_ari: f64,
+    },
 }
+
+/// A community whose mean best-match Jaccard under resampling falls below this is flagged as
+/// unstable. Hennig (2007) reads values at or below 0.5 as a dissolved cluster and advises
+/// against trusting clusters below about 0.6 (thresholds from memory of that paper).
+pub const UNSTABLE_JACCARD: f64 = 0.6;
+
+/// A median subsample ARI below this is flagged: ARI 0.65 is the lower end of what is commonly
+/// read as good agreement (common practice, no single published threshold).
+pub const LOW_MEDIAN_ARI: f64 = 0.65;
 
 impl fmt::Display for Warning {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
@@ -75,6 +101,28 @@ impl fmt::Display for Warning {
                 f,
                 "the consensus found one community: no graph of the sweep showed subgroups that held together; \
                  the cohort may be homogeneous (no evidence of subgroups at these settings), or try a sparser --densities range, a kNN sweep (--graph knn) or --method leiden"
+            ),
+            Warning::NotAboveNull { p_value, alpha } => write!(
+                f,
+                "the community structure is not stronger than in cohorts drawn from one homogeneous population (null test p = {p_value:.3}, above {alpha}): \
+                 read the communities as a partition of a continuum, not as distinct subgroups; a larger cohort or a different feature set may show structure that this one does not"
+            ),
+            Warning::UnstableCommunities { communities } => {
+                let listed: Vec<String> = communities
+                    .iter()
+                    .map(|(community, jaccard)| format!("community {community} ({jaccard:.2})"))
+                    .collect();
+                write!(
+                    f,
+                    "{} do not hold together when participants are resampled (mean best-match Jaccard below {UNSTABLE_JACCARD}): \
+                     their membership depends on who is in the cohort; do not interpret them on their own, and see stability.tsv",
+                    listed.join(", ")
+                )
+            }
+            Warning::LowSubsampleAgreement { median_ari } => write!(
+                f,
+                "subsamples of the cohort give partitions that agree poorly with the full one (median adjusted Rand index {median_ari:.2}, below {LOW_MEDIAN_ARI}): \
+                 the number or the borders of the communities are not stable"
             ),
         }
     }
@@ -156,6 +204,64 @@ pub struct GraphMeasuresSummary {
     pub random_graphs: usize,
 }
 
+/// The null test in `summary.json` (key `null_test`).
+#[derive(Debug, Clone, Serialize)]
+pub struct NullTestSummary {
+    /// Null cohorts drawn.
+    pub draws: usize,
+    /// Significance level of the verdict.
+    pub alpha: f64,
+    /// The statistic: `relative_codelength_savings` (Infomap) or `modularity`, averaged over the
+    /// graphs of the sweep.
+    pub statistic: String,
+    /// Its observed value.
+    pub observed: f64,
+    /// Its Monte Carlo p-value.
+    pub p_value: f64,
+    /// Null quantiles keyed by level (`"0.05"`, `"0.25"`, `"0.5"`, `"0.75"`, `"0.95"`).
+    pub null_quantiles: std::collections::BTreeMap<String, f64>,
+    /// Mean of the null values.
+    pub null_mean: f64,
+    /// Observed consensus strength (the method's structure of the consensus partition).
+    pub consensus_observed: f64,
+    /// Its Monte Carlo p-value.
+    pub consensus_p_value: f64,
+    /// Null quantiles of the consensus strength.
+    pub consensus_null_quantiles: std::collections::BTreeMap<String, f64>,
+    /// Share of null cohorts whose consensus had two or more communities.
+    pub null_multi_community_share: f64,
+    /// Smallest attainable p, 1 / (draws + 1).
+    pub smallest_p: f64,
+    /// At least two communities and the structure's p <= alpha.
+    pub subgroups_supported: bool,
+}
+
+/// One community under resampling.
+#[derive(Debug, Clone, Serialize)]
+pub struct CommunityStability {
+    /// Community 1..=k.
+    pub community: usize,
+    /// Mean best-match Jaccard over the subsamples that drew a member (Hennig 2007).
+    pub stability: f64,
+    /// Median confidence of its members.
+    pub median_confidence: f64,
+}
+
+/// The resampling-stability check in `summary.json` (key `stability`).
+#[derive(Debug, Clone, Serialize)]
+pub struct StabilitySummary {
+    /// Subsamples drawn.
+    pub subsamples: usize,
+    /// Share of participants per subsample.
+    pub fraction: f64,
+    /// Median adjusted Rand index of the subsample partitions with the full one.
+    pub median_ari: f64,
+    /// Per community.
+    pub communities: Vec<CommunityStability>,
+    /// Median per-participant confidence over the assigned participants.
+    pub median_confidence: f64,
+}
+
 /// Everything a run reports.
 #[derive(Debug, Clone, Serialize)]
 pub struct RunSummary {
@@ -206,6 +312,14 @@ pub struct RunSummary {
     pub median_consistency: f64,
     /// Measures of the participant graph with the strongest structure.
     pub graph_measures: Option<GraphMeasuresSummary>,
+    /// The verdict of the null test (`null` when the test was not run).
+    pub subgroups_supported: Option<bool>,
+    /// The verdict in one sentence.
+    pub verdict: String,
+    /// The null test (`null` when not run).
+    pub null_test: Option<NullTestSummary>,
+    /// The resampling-stability check (`null` when not run).
+    pub stability: Option<StabilitySummary>,
     /// The contrasts.
     pub comparisons: Vec<ComparisonSummary>,
     /// The false-discovery level used in `significant_features`.
@@ -260,6 +374,23 @@ impl RunSummary {
             self.consensus_modularity,
             self.median_consistency
         );
+        let _ = writeln!(text, "{}", self.verdict);
+        if let Some(stability) = &self.stability {
+            let per_community: Vec<String> = stability
+                .communities
+                .iter()
+                .map(|community| format!("{}: {:.2}", community.community, community.stability))
+                .collect();
+            let _ = writeln!(
+                text,
+                "Stability over {} subsamples of {:.0}% of the participants: median adjusted Rand index {:.2}; community stability (mean best-match Jaccard) {}; median participant confidence {:.2}.",
+                stability.subsamples,
+                100.0 * stability.fraction,
+                stability.median_ari,
+                if per_community.is_empty() { "n/a".to_string() } else { per_community.join(", ") },
+                stability.median_confidence
+            );
+        }
         if let Some(graph) = &self.graph_measures {
             let sigma = graph.small_world_sigma.map_or(String::new(), |sigma| {
                 format!(", small-world sigma {sigma:.2} ({} random graphs)", graph.random_graphs)
