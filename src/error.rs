@@ -27,6 +27,9 @@ pub enum Error {
     /// The resampling-stability check could not run.
     #[error(transparent)]
     Stability(#[from] crate::validation::StabilityError),
+    /// New participants could not be assigned to an earlier run's communities.
+    #[error(transparent)]
+    Assign(#[from] crate::assign::AssignError),
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
@@ -71,6 +74,8 @@ impl Error {
             Error::Config(_) => exit_code::USAGE,
             Error::Read(_) | Error::Feature(_) => exit_code::INPUT,
             Error::Community(_) | Error::Null(_) | Error::Stability(_) => exit_code::ANALYSIS,
+            Error::Assign(crate::assign::AssignError::InvalidConfidence { .. }) => exit_code::USAGE,
+            Error::Assign(_) => exit_code::INPUT,
             Error::Write(_) => exit_code::OUTPUT,
             Error::Demo(_) => exit_code::OUTPUT,
         }

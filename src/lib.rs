@@ -29,6 +29,7 @@
 // built once, on the failure path, so their size does not matter.
 #![allow(clippy::result_large_err)]
 
+pub mod assign;
 pub mod communities;
 pub mod config;
 pub mod demo;
@@ -38,6 +39,7 @@ pub mod graph;
 pub mod maps;
 pub mod partition;
 pub mod pipeline;
+pub mod power;
 pub mod read;
 pub mod report;
 pub mod seed;

@@ -252,6 +252,18 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         None => not_compared(config, &groups, &communities),
     };
 
+    if let Some(features) = &features {
+        crate::assign::write_model(
+            output.path(),
+            &features.matrix,
+            &features.space,
+            &communities.partition,
+            match config.values {
+                Values::R => ValueScale::Correlation,
+                Values::Z => ValueScale::FisherZ,
+            },
+        )?;
+    }
     timings.time(log, "write", || {
         write_tables(config, &output, &cohort, &groups, &communities, &comparisons, &similarity, &validated)?;
         write_validation_tables(&output, &communities, &validated)?;
@@ -346,7 +358,9 @@ fn validate(
             )
         })?;
         let summary = crate::report::null_summary(&result);
-        if !summary.subgroups_supported && communities.partition.community_count() >= 2 {
+        if summary.smallest_p > summary.alpha {
+            warnings.push(Warning::TooFewNullDraws { draws: summary.draws, alpha: summary.alpha });
+        } else if !summary.subgroups_supported && communities.partition.community_count() >= 2 {
             warnings.push(Warning::NotAboveNull { p_value: summary.p_value, alpha: summary.alpha });
         }
         (Some(result), Some(summary))
@@ -1123,6 +1137,8 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
         let config = RunConfig {
             atlas: atlas_table,
             seed: scenario.seed,
+            null_draws: options.null_draws,
+            subsamples: options.subsamples,
             ..RunConfig::with_defaults(
                 vec![inputs_glob],
                 participants_tsv,

@@ -81,7 +81,12 @@ fn expect_failure(dir: &Path, args: &[&str], code: i32, fragments: &[&str]) {
 #[test]
 fn demo_recovers_planted_subgroups() {
     let dir = tempfile::tempdir().unwrap();
-    let output = strata(&["demo", "--out", "demo", "--kind", "matrices"], dir.path());
+    // Fewer null cohorts and subsamples than the defaults keep the debug-build test short; the
+    // null test's p is then at least 1/20.
+    let output = strata(
+        &["demo", "--out", "demo", "--kind", "matrices", "--null-draws", "19", "--subsamples", "10"],
+        dir.path(),
+    );
     let (stdout, stderr) = text(&output);
     assert!(output.status.success(), "{stderr}");
     // "adjusted Rand index with the planted subgroups: 0.987." -> parse the figure.
@@ -102,9 +107,21 @@ fn demo_recovers_planted_subgroups() {
         "similarity.npy",
         "provenance.json",
         "dataset_description.json",
+        "stability.tsv",
+        "subsamples.tsv",
+        "null_distribution.tsv",
     ] {
         assert!(results.join(file).exists(), "{file} missing");
     }
+    // Three planted subgroups of separation 0.6 lie far above the homogeneous null: every one of
+    // the 19 null cohorts has weaker structure, so p = 1/20 (the smallest attainable).
+    let summary: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(results.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["subgroups_supported"], true, "{summary}");
+    assert!((summary["null_test"]["p_value"].as_f64().unwrap() - 0.05).abs() < 1e-12);
+    assert_eq!(summary["null_test"]["draws"], 19);
+    assert!(summary["stability"]["median_ari"].as_f64().unwrap() > 0.9, "{summary}");
+    assert!(summary["verdict"].as_str().unwrap().starts_with("Subgroups supported"), "{summary}");
     // Refuses to overwrite without --force.
     let again = strata(&["demo", "--out", "demo", "--kind", "matrices"], dir.path());
     assert_eq!(again.status.code(), Some(5));
@@ -144,7 +161,7 @@ fn run_on_the_committed_small_cohort() {
     assert!(stdout.contains("24 participants"), "{stdout}");
     let table = std::fs::read_to_string(out.join("participants.tsv")).unwrap();
     let header: Vec<&str> = table.lines().next().unwrap().split('\t').collect();
-    assert_eq!(&header[header.len() - 2..], &["community", "consistency"]);
+    assert_eq!(&header[header.len() - 3..], &["community", "consistency", "confidence"]);
     assert_eq!(table.lines().count(), 25);
     // BIDS v1.11.1 derivative dataset_description: Name, BIDSVersion, DatasetType, GeneratedBy[].Name.
     let description: serde_json::Value =
@@ -190,9 +207,14 @@ fn results_do_not_depend_on_thread_count() {
             .output()
             .unwrap();
         assert!(output.status.success(), "{}", text(&output).1);
+        let summary: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
         tables.push((
             std::fs::read(out.join("participants.tsv")).unwrap(),
             std::fs::read(out.join("similarity.npy")).unwrap(),
+            std::fs::read(out.join("null_distribution.tsv")).unwrap(),
+            summary["null_test"].to_string(),
+            summary["stability"].to_string(),
         ));
     }
     assert_eq!(tables[0], tables[1]);

@@ -45,6 +45,161 @@ pub enum Command {
     /// `node<TAB>community` lines to standard output, the quality to standard error.
     #[command(after_help = PARTITION_EXAMPLE)]
     Partition(PartitionArgs),
+    /// Place new participants into the communities of an earlier run: Pearson r with each
+    /// community's centroid, the nearest community, a margin-based confidence, and community 0
+    /// (none) when the placement is less clear than for nearly every training participant.
+    #[command(after_help = ASSIGN_EXAMPLE)]
+    Assign(AssignArgs),
+    /// Plan a study: simulate cohorts with strata's generator and report the expected recovery
+    /// of planted subgroups (adjusted Rand index) and the null test's power.
+    #[command(after_help = POWER_EXAMPLE)]
+    Power(PowerArgs),
+}
+
+const POWER_EXAMPLE: &str = "\
+Example (three subgroups of 40/35/25% at a pilot's separation of 0.3 noise SD, 150 participants):
+  strata power --participants 150 --proportions 0.4,0.35,0.25 --separation 0.3
+
+The separation is the subgroup profile strength in units of the participant noise standard
+deviation; from a pilot run, the typical between-community Hedges g of the features is on that
+scale. Leave out --proportions to estimate the null test's false-positive rate.";
+
+/// Flags of `strata power`.
+#[derive(Debug, Args)]
+pub struct PowerArgs {
+    /// Participants per simulated cohort.
+    #[arg(long, value_name = "NUM")]
+    pub participants: usize,
+    /// Share of each planted subgroup, comma-separated, summing to 1 (for example 0.5,0.3,0.2);
+    /// leave out for one homogeneous population.
+    #[arg(long, value_name = "LIST", value_delimiter = ',')]
+    pub proportions: Vec<f64>,
+    /// Subgroup separation in units of the participant noise standard deviation.
+    #[arg(long, value_name = "NUM", default_value_t = 0.3)]
+    pub separation: f64,
+    /// Regions of the simulated connectivity matrices.
+    #[arg(long, value_name = "NUM", default_value_t = 100)]
+    pub regions: usize,
+    /// Simulated cohorts.
+    #[arg(long, value_name = "NUM", default_value_t = crate::power::DEFAULT_COHORTS)]
+    pub cohorts: usize,
+    /// Null cohorts per simulated cohort (the smallest attainable p is 1 / (NUM + 1)).
+    #[arg(long, value_name = "NUM", default_value_t = crate::power::DEFAULT_POWER_NULL_DRAWS)]
+    pub null_draws: usize,
+    /// Community-detection method.
+    #[arg(long, value_enum, value_name = "METHOD", default_value_t = config::DEFAULT_METHOD)]
+    pub method: crate::communities::Method,
+    /// Significance level of the null test.
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA)]
+    pub alpha: f64,
+    /// Seed of the simulation.
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_SEED)]
+    pub seed: u64,
+    /// Write the figures as JSON to this file as well.
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<PathBuf>,
+    /// Worker threads (0 = one per core).
+    #[arg(long, value_name = "NUM", default_value_t = 0)]
+    pub threads: usize,
+}
+
+impl PowerArgs {
+    /// Builds the validated options.
+    pub fn into_options(self) -> Result<crate::power::PowerOptions, ConfigError> {
+        let invalid = |flag: &str, message: String| ConfigError::Invalid { flag: flag.to_string(), message };
+        if self.participants < 10 {
+            return Err(invalid(
+                "--participants",
+                format!("{} is too few to plan subgrouping; give at least 10", self.participants),
+            ));
+        }
+        if self.cohorts == 0 {
+            return Err(invalid("--cohorts", "must be at least 1".to_string()));
+        }
+        if self.null_draws == 0 {
+            return Err(invalid(
+                "--null-draws",
+                "must be at least 1 (the power is that of the null test)".to_string(),
+            ));
+        }
+        if !(self.alpha > 0.0 && self.alpha < 1.0) {
+            return Err(invalid("--alpha", format!("{} must lie strictly between 0 and 1", self.alpha)));
+        }
+        let smallest_p = 1.0 / (self.null_draws + 1) as f64;
+        if smallest_p > self.alpha {
+            let needed = (1.0 / self.alpha).ceil() as usize - 1;
+            return Err(invalid(
+                "--null-draws",
+                format!(
+                    "{} null cohorts give a smallest attainable p of {smallest_p:.3}, above --alpha {}: the test could never support subgroups; give at least {needed}",
+                    self.null_draws, self.alpha
+                ),
+            ));
+        }
+        if !self.proportions.is_empty() {
+            let sum: f64 = self.proportions.iter().sum();
+            if self.proportions.len() < 2
+                || self.proportions.iter().any(|&p| !(p > 0.0))
+                || (sum - 1.0).abs() > 1e-6
+            {
+                return Err(invalid(
+                    "--proportions",
+                    format!(
+                        "{:?} must be two or more positive shares summing to 1, for example 0.5,0.3,0.2",
+                        self.proportions
+                    ),
+                ));
+            }
+        }
+        if !(self.separation.is_finite() && self.separation >= 0.0) {
+            return Err(invalid(
+                "--separation",
+                format!("{} must be a non-negative number", self.separation),
+            ));
+        }
+        Ok(crate::power::PowerOptions {
+            participants: self.participants,
+            proportions: self.proportions,
+            separation: self.separation,
+            regions: self.regions,
+            cohorts: self.cohorts,
+            null_draws: self.null_draws,
+            method: self.method,
+            alpha: self.alpha,
+            seed: self.seed,
+        })
+    }
+}
+
+const ASSIGN_EXAMPLE: &str = "\
+Example:
+  strata assign results/ --inputs 'new/sub-*_conn.npy' --out new_assignments.tsv
+
+Output columns: participant_id, community (0 = none), nearest, r_community_K per community,
+margin, confidence, note (why a participant is left unassigned). New inputs must be of the
+run's kind, on its grid and affine (seed maps) or with its number of regions (matrices), and
+named sub-<label>_...";
+
+/// Flags of `strata assign`.
+#[derive(Debug, Args)]
+pub struct AssignArgs {
+    /// Output folder of an earlier `strata run` (it holds assignment/model.json).
+    #[arg(value_name = "RUN_DIR")]
+    pub run: PathBuf,
+    /// New participants' input files: a glob pattern or paths (repeat the flag or separate with
+    /// commas), named sub-<label>_..., of the same kind as the run's inputs.
+    #[arg(long, value_name = "GLOB", required = true, value_delimiter = ',')]
+    pub inputs: Vec<String>,
+    /// Output table (TSV, one row per new participant).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Participants placed less clearly than this share of the training participants (by
+    /// margin over the next community, or by similarity to the nearest centroid) get community 0.
+    #[arg(long, value_name = "NUM", default_value_t = crate::assign::DEFAULT_MIN_CONFIDENCE)]
+    pub min_confidence: f64,
+    /// Worker threads (0 = one per core).
+    #[arg(long, value_name = "NUM", default_value_t = 0)]
+    pub threads: usize,
 }
 
 const PARTITION_EXAMPLE: &str = "\
@@ -355,6 +510,12 @@ pub struct DemoArgs {
     /// Seed of the generator and of the analysis.
     #[arg(long, value_name = "NUM")]
     pub seed: Option<u64>,
+    /// Null cohorts of the null test (as in `strata run`; 0 skips it).
+    #[arg(long, value_name = "NUM", default_value_t = crate::validation::DEFAULT_NULL_DRAWS)]
+    pub null_draws: usize,
+    /// Subsamples of the stability check (as in `strata run`; 0 skips it).
+    #[arg(long, value_name = "NUM", default_value_t = crate::validation::DEFAULT_SUBSAMPLES)]
+    pub subsamples: usize,
     /// Worker threads (0 = one per core).
     #[arg(long, value_name = "NUM", default_value_t = 0)]
     pub threads: usize,
@@ -373,6 +534,10 @@ pub struct DemoOptions {
     pub scenario: Option<PathBuf>,
     /// Seed override.
     pub seed: Option<u64>,
+    /// Null cohorts of the null test.
+    pub null_draws: usize,
+    /// Subsamples of the stability check.
+    pub subsamples: usize,
 }
 
 impl DemoArgs {
@@ -384,6 +549,8 @@ impl DemoArgs {
             kind: self.kind,
             scenario: self.scenario,
             seed: self.seed,
+            null_draws: self.null_draws,
+            subsamples: self.subsamples,
         })
     }
 }

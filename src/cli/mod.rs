@@ -43,6 +43,35 @@ pub fn run_with(cli: Cli) -> Result<(), Error> {
             }
             Ok(())
         }
+        Command::Assign(assign) => {
+            install_threads(assign.threads)?;
+            let options = crate::assign::AssignOptions {
+                run: assign.run,
+                inputs: assign.inputs,
+                out: assign.out.clone(),
+                min_confidence: assign.min_confidence,
+            };
+            let assignments = crate::assign::assign(&options)?;
+            let placed = assignments.iter().filter(|a| a.community > 0).count();
+            println!(
+                "{} participant(s) read; {placed} placed in a community, {} left unassigned (community 0); table: {}",
+                assignments.len(),
+                assignments.len() - placed,
+                assign.out.display()
+            );
+            Ok(())
+        }
+        Command::Power(power) => {
+            install_threads(power.threads)?;
+            let json_path = power.json.clone();
+            let report = crate::power::simulate(&power.into_options()?)?;
+            if let Some(path) = json_path {
+                let text = serde_json::to_string_pretty(&report).expect("the report serialises") + "\n";
+                crate::maps::write_bytes_atomically(&path, text.as_bytes())?;
+            }
+            print!("{}", report.text());
+            Ok(())
+        }
         Command::Demo(demo) => {
             install_threads(demo.threads)?;
             let text = crate::pipeline::demo(&demo.into_options()?, &log)?;

@@ -12,7 +12,9 @@ pub mod naming;
 pub mod write;
 
 pub use naming::{contrast_label, sanitise_label, MapName, MapNameBuilder};
-pub use write::{contrast_fields, groups_field, write_bytes_atomically, write_map, NIFTI_GZIP_LEVEL};
+pub use write::{
+    contrast_fields, groups_field, write_bytes_atomically, write_map, write_mask, NIFTI_GZIP_LEVEL,
+};
 
 use std::path::PathBuf;
 

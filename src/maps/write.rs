@@ -216,6 +216,16 @@ fn check_sidecar<'a>(
     Ok(fields)
 }
 
+/// Writes the analysis mask of a voxel space as a NIfTI volume on its grid: 1 at the analysed
+/// voxels, 0 elsewhere (used by `strata assign` to read new participants on the same voxels).
+///
+/// # Errors
+/// As [`write_map`].
+pub fn write_mask(path: &Path, space: &VoxelSpace) -> Result<(), WriteError> {
+    let ones = vec![1.0f32; space.mask.len()];
+    write_nifti_map(path, space, "mask", Statistic::Mean, &ones, None)
+}
+
 fn write_nifti_map(
     path: &Path,
     space: &VoxelSpace,

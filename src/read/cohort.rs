@@ -83,6 +83,21 @@ fn name_has_token(path: &Path, token: &str) -> bool {
     })
 }
 
+/// Expands glob patterns (or plain paths) into the sorted, de-duplicated list of files.
+///
+/// # Errors
+/// [`ReadError::Pattern`] for an invalid pattern, a pattern that matches no file, or a folder.
+pub fn expand_patterns(patterns: &[String]) -> Result<Vec<PathBuf>, ReadError> {
+    let files = expand(patterns)?;
+    if files.is_empty() {
+        return Err(ReadError::Pattern {
+            pattern: patterns.join(","),
+            problem: "no input pattern given".into(),
+        });
+    }
+    Ok(files)
+}
+
 fn expand(patterns: &[String]) -> Result<Vec<PathBuf>, ReadError> {
     let mut files = Vec::new();
     for pattern in patterns {

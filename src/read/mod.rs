@@ -12,7 +12,11 @@ pub mod nifti;
 mod similarity;
 mod table;
 
-pub use cohort::{discover_inputs, Cohort, InputKind, InputOptions, InputSource};
+pub use cohort::{
+    discover_inputs, expand_patterns, kind_of, participant_label, Cohort, InputKind, InputOptions,
+    InputSource,
+};
 pub use error::ReadError;
+pub use nifti::{affines_match, format_affine, read_volume};
 pub use similarity::read_similarity;
 pub use table::{read_participants, read_table, ParticipantsTable};

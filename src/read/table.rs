@@ -56,6 +56,17 @@ impl ParticipantsTable {
         self.lines[row]
     }
 
+    /// A one-column table (`participant_id`) of `ids`, for inputs that come without a
+    /// participants table (`strata assign`); `path` names where the ids came from in messages.
+    pub fn from_ids(path: &Path, ids: &[String]) -> ParticipantsTable {
+        ParticipantsTable {
+            path: path.to_path_buf(),
+            columns: vec!["participant_id".to_string()],
+            rows: ids.iter().map(|id| vec![id.clone()]).collect(),
+            lines: (2..ids.len() + 2).collect(),
+        }
+    }
+
     /// The same table restricted to `rows`, in that order.
     pub fn select(&self, rows: &[usize]) -> ParticipantsTable {
         ParticipantsTable {

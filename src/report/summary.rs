@@ -53,6 +53,13 @@ pub enum Warning {
         /// (community, mean best-match Jaccard) of each unstable community.
         communities: Vec<(usize, f64)>,
     },
+    /// The null test has too few draws to reach the significance level.
+    TooFewNullDraws {
+        /// Draws.
+        draws: usize,
+        /// The level in force.
+        alpha: f64,
+    },
     /// Subsample partitions agree poorly with the full partition.
     LowSubsampleAgreement {
         /// Median adjusted Rand index over the subsamples.
@@ -119,6 +126,12 @@ impl fmt::Display for Warning {
                     listed.join(", ")
                 )
             }
+            Warning::TooFewNullDraws { draws, alpha } => write!(
+                f,
+                "--null-draws {draws} gives a smallest attainable p of {:.3}, above --alpha {alpha}: the null test cannot support subgroups at this level; give --null-draws {} or more",
+                1.0 / (*draws as f64 + 1.0),
+                (1.0 / alpha).ceil() as usize - 1
+            ),
             Warning::LowSubsampleAgreement { median_ari } => write!(
                 f,
                 "subsamples of the cohort give partitions that agree poorly with the full one (median adjusted Rand index {median_ari:.2}, below {LOW_MEDIAN_ARI}): \
