@@ -1155,10 +1155,17 @@ pub fn demo(options: &crate::cli::args::DemoOptions, log: &Log) -> Result<String
             &mut text,
             format_args!(
                 "Demo ({kind}): {} participants, {} planted subgroups; strata found {} communities; \
-                 adjusted Rand index with the planted subgroups: {ari:.3}.\n  results: {}\n",
+                 adjusted Rand index with the planted subgroups: {ari:.3}.\n  {}\n{}  results: {}\n",
                 summary.participant_count,
                 staged.truth.iter().copied().max().unwrap_or(0),
                 summary.community_count,
+                summary.verdict,
+                summary.stability.as_ref().map_or(String::new(), |stability| format!(
+                    "  Stability: median adjusted Rand index {:.2} over {} subsamples of {:.0}%.\n",
+                    stability.median_ari,
+                    stability.subsamples,
+                    100.0 * stability.fraction
+                )),
                 final_dir.display()
             ),
         );

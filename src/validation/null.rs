@@ -269,6 +269,12 @@ impl NullModel {
     /// The similarity of the cohort whose centred frame is `frame` (N x r, orthonormal columns
     /// orthogonal to 1): each null cohort, or with the observed frame the observed similarity.
     fn similarity_with_frame(&self, frame: &Mat<f64>) -> SimilarityMatrix {
+        standardise_gram(&self.gram_with_frame(frame))
+    }
+
+    /// The Gram matrix of the centred feature rows of the cohort with centred frame `frame`,
+    /// before the per-participant standardisation.
+    fn gram_with_frame(&self, frame: &Mat<f64>) -> Mat<f64> {
         let n = self.participants;
         let rank = self.eigenvalues.len();
         let scaled =
@@ -283,18 +289,29 @@ impl NullModel {
                 gram[(i, j)] += mean_term[i] + mean_term[j] + self.mean_norm;
             }
         }
-        // Pearson similarity standardises every participant's feature row. The rows of a null
-        // cohort are already centred (each is a combination of centred rows), so only their
-        // norms are reproduced: divide by sqrt(K0_pp K0_qq).
-        let scale: Vec<f64> = (0..n).map(|i| 1.0 / gram[(i, i)].max(f64::MIN_POSITIVE).sqrt()).collect();
-        let values = ndarray::Array2::from_shape_fn((n, n), |(i, j)| {
-            if i == j {
-                1.0
-            } else {
-                (gram[(i, j)] * scale[i] * scale[j]) as f32
-            }
-        });
-        SimilarityMatrix { values }
+        gram
+    }
+
+    /// The null cohort obtained with a given rotation O of participant space (N x N, orthogonal,
+    /// O 1 = 1): the similarity of the rows y_bar + O (y_p - y_bar). Used to check the
+    /// participant-space construction against the same rotation applied in feature space.
+    ///
+    /// # Panics
+    /// If `rotation` is not N x N.
+    pub fn rotated(&self, rotation: &ndarray::Array2<f64>) -> SimilarityMatrix {
+        let n = self.participants;
+        assert_eq!(rotation.dim(), (n, n), "rotation must be N x N");
+        let rotation = Mat::<f64>::from_fn(n, n, |i, j| rotation[[i, j]]);
+        let mut frame = Mat::<f64>::zeros(n, self.eigenvalues.len());
+        matmul(frame.as_mut(), Accum::Replace, rotation.as_ref(), self.frame.as_ref(), 1.0, Par::Seq);
+        self.similarity_with_frame(&frame)
+    }
+
+    /// One null cohort's Gram matrix of centred feature rows, before the per-participant
+    /// standardisation (its centred spectrum equals [`NullModel::spectrum`]).
+    pub fn draw_gram<R: Rng>(&self, rng: &mut R) -> ndarray::Array2<f64> {
+        let gram = self.gram_with_frame(&self.random_frame(rng));
+        ndarray::Array2::from_shape_fn((self.participants, self.participants), |(i, j)| gram[(i, j)])
     }
 
     /// The observed similarity rebuilt from the model (for checks of the decomposition).
@@ -332,6 +349,24 @@ impl NullModel {
             // its Gram matrix numerically singular.
         }
     }
+}
+
+/// Pearson similarity from a Gram matrix of centred rows: K_pq / sqrt(K_pp K_qq).
+///
+/// Pearson similarity standardises every participant's feature row. The rows of a null cohort
+/// are already centred (each is a combination of centred rows), so only their norms are
+/// reproduced.
+fn standardise_gram(gram: &Mat<f64>) -> SimilarityMatrix {
+    let n = gram.nrows();
+    let scale: Vec<f64> = (0..n).map(|i| 1.0 / gram[(i, i)].max(f64::MIN_POSITIVE).sqrt()).collect();
+    let values = ndarray::Array2::from_shape_fn((n, n), |(i, j)| {
+        if i == j {
+            1.0
+        } else {
+            (gram[(i, j)] * scale[i] * scale[j]) as f32
+        }
+    });
+    SimilarityMatrix { values }
 }
 
 /// Symmetric eigendecomposition, single-threaded so the result does not depend on the thread
