@@ -323,6 +323,8 @@ struct Validated {
 }
 
 /// Stage 6: the rotation null test and the resampling stability of the consensus partition.
+/// A check that cannot run on this cohort (too few participants, no spread) is skipped with a
+/// warning rather than failing the run.
 fn validate(
     config: &RunConfig,
     log: &Log,
@@ -333,7 +335,7 @@ fn validate(
     options: &CommunityOptions,
 ) -> Result<Validated, Error> {
     let mut warnings = Vec::new();
-    let (null, null_summary) = if config.null_draws > 0 {
+    let null = if config.null_draws > 0 {
         log.note(&format!(
             "null test: {} null cohorts through the same sweep and consensus",
             config.null_draws
@@ -348,7 +350,7 @@ fn validate(
             alpha: config.alpha,
             seed: config.seed,
         };
-        let result = timings.time(log, "null test", || {
+        let outcome = timings.time(log, "null test", || {
             crate::validation::null_test(
                 similarity,
                 row_norms.as_deref(),
@@ -356,18 +358,30 @@ fn validate(
                 options,
                 &null_options,
             )
-        })?;
-        let summary = crate::report::null_summary(&result);
-        if summary.smallest_p > summary.alpha {
-            warnings.push(Warning::TooFewNullDraws { draws: summary.draws, alpha: summary.alpha });
-        } else if !summary.subgroups_supported && communities.partition.community_count() >= 2 {
-            warnings.push(Warning::NotAboveNull { p_value: summary.p_value, alpha: summary.alpha });
+        });
+        match outcome {
+            Ok(result) => {
+                let summary = crate::report::null_summary(&result);
+                if summary.smallest_p > summary.alpha {
+                    warnings.push(Warning::TooFewNullDraws { draws: summary.draws, alpha: summary.alpha });
+                } else if !summary.subgroups_supported && communities.partition.community_count() >= 2 {
+                    warnings.push(Warning::NotAboveNull { p_value: summary.p_value, alpha: summary.alpha });
+                }
+                Some((result, summary))
+            }
+            Err(error @ crate::validation::NullError::Degenerate { .. }) => {
+                warnings.push(Warning::ValidationSkipped {
+                    check: "null test".into(),
+                    reason: error.to_string(),
+                });
+                None
+            }
+            Err(error) => return Err(error.into()),
         }
-        (Some(result), Some(summary))
     } else {
-        (None, None)
+        None
     };
-    let (stability, stability_summary) = if config.subsamples > 0 {
+    let stability = if config.subsamples > 0 {
         log.note(&format!(
             "stability: {} subsamples of {:.0}% of the participants",
             config.subsamples,
@@ -378,19 +392,42 @@ fn validate(
             fraction: config.subsample_fraction,
             seed: config.seed,
         };
-        let result = timings.time(log, "stability", || {
+        let outcome = timings.time(log, "stability", || {
             crate::validation::stability(similarity, &communities.partition, options, &stability_options)
-        })?;
-        let (summary, stability_warnings) = crate::report::stability_summary(
-            &result,
-            &communities.partition,
-            config.subsamples,
-            config.subsample_fraction,
-        );
-        warnings.extend(stability_warnings);
-        (Some(result), Some(summary))
+        });
+        match outcome {
+            Ok(result) => {
+                let (summary, stability_warnings) = crate::report::stability_summary(
+                    &result,
+                    &communities.partition,
+                    config.subsamples,
+                    config.subsample_fraction,
+                );
+                warnings.extend(stability_warnings);
+                Some((result, summary))
+            }
+            Err(
+                error @ (crate::validation::StabilityError::SubsampleTooSmall { .. }
+                | crate::validation::StabilityError::Community { .. }),
+            ) => {
+                warnings.push(Warning::ValidationSkipped {
+                    check: "stability check".into(),
+                    reason: error.to_string(),
+                });
+                None
+            }
+            Err(error) => return Err(error.into()),
+        }
     } else {
-        (None, None)
+        None
+    };
+    let (null, null_summary) = match null {
+        Some((result, summary)) => (Some(result), Some(summary)),
+        None => (None, None),
+    };
+    let (stability, stability_summary) = match stability {
+        Some((result, summary)) => (Some(result), Some(summary)),
+        None => (None, None),
     };
     Ok(Validated { null, null_summary, stability, stability_summary, warnings })
 }

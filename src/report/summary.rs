@@ -53,6 +53,13 @@ pub enum Warning {
         /// (community, mean best-match Jaccard) of each unstable community.
         communities: Vec<(usize, f64)>,
     },
+    /// A validation check could not run on this cohort and was skipped.
+    ValidationSkipped {
+        /// `null test` or `stability check`.
+        check: String,
+        /// Why.
+        reason: String,
+    },
     /// The null test has too few draws to reach the significance level.
     TooFewNullDraws {
         /// Draws.
@@ -126,6 +133,10 @@ impl fmt::Display for Warning {
                     listed.join(", ")
                 )
             }
+            Warning::ValidationSkipped { check, reason } => write!(
+                f,
+                "the {check} was skipped: {reason}; the communities are reported without it, so read them with extra caution"
+            ),
             Warning::TooFewNullDraws { draws, alpha } => write!(
                 f,
                 "--null-draws {draws} gives a smallest attainable p of {:.3}, above --alpha {alpha}: the null test cannot support subgroups at this level; give --null-draws {} or more",

@@ -149,7 +149,7 @@ pub struct NullResult {
 #[derive(Debug, Error)]
 pub enum NullError {
     /// No draw was asked for.
-    #[error("--null-draws is 0; expected at least 1 null cohort (default {DEFAULT_NULL_DRAWS}); pass --null-draws 0 only together with --no-null-test")]
+    #[error("the null test needs at least 1 null cohort (default {DEFAULT_NULL_DRAWS}); --null-draws 0 skips the test")]
     NoDraws,
     /// The similarity matrix is too small or has no spread.
     #[error("the null test needs at least 3 participants with differing similarity; found {participants} participants and a centred similarity of largest eigenvalue {largest:.3e}")]
@@ -162,21 +162,13 @@ pub enum NullError {
     /// The eigendecomposition did not converge.
     #[error("the eigendecomposition of the centred similarity matrix did not converge; check the similarity matrix for NaN or infinite values")]
     Eigen,
-    /// Community detection failed on one null cohort.
-    #[error("null cohort {draw}: {source}")]
-    Community {
-        /// 0-based draw index.
-        draw: usize,
-        /// The community stage's error.
-        #[source]
-        source: CommunityError,
-    },
 }
 
 /// The observed cohort's Gram matrix split into its mean and centred parts, from which null
 /// cohorts are drawn.
 ///
-/// With K the N x N Gram (similarity) matrix of the standardised feature rows, 1 the vector of
+/// With K the N x N Gram matrix of the centred feature rows (the similarity scaled by the row
+/// norms, see [`NullModel::new`]), 1 the vector of
 /// ones, H = I - 1 1t / N and J = 1 1t / N:
 ///
 /// ```text
@@ -481,8 +473,8 @@ fn compare(observed: f64, null: &[f64]) -> NullComparison {
 /// * `null`: draws, alpha and seed.
 ///
 /// # Errors
-/// [`NullError::NoDraws`], [`NullError::Degenerate`], [`NullError::Eigen`], or
-/// [`NullError::Community`] for the first draw whose detection failed.
+/// [`NullError::NoDraws`], [`NullError::Degenerate`] or [`NullError::Eigen`]. A null cohort
+/// whose graphs keep no edge counts as one without structure (statistics 0).
 ///
 /// # Complexity
 /// O(N^3) once, then per draw O(N^2 r) for the rotation plus one community detection.
@@ -525,10 +517,15 @@ pub fn null_test_with_progress(
             let mut rng = crate::seed::rng(null.seed, DRAW_STAGE, &[draw as u64]);
             let cohort = model.draw(&mut rng);
             let seed = crate::seed::derive(null.seed, DETECT_STAGE, &[draw as u64]);
-            let result = detect(&cohort, &CommunityOptions { seed, ..options.clone() })
-                .map_err(|source| NullError::Community { draw, source })?;
+            let statistics = match detect(&cohort, &CommunityOptions { seed, ..options.clone() }) {
+                Ok(result) => StructureStatistics::of(&result, objective),
+                // A null cohort whose graphs keep no edge has no community structure at all.
+                Err(CommunityError::NoEdges) => {
+                    StructureStatistics { structure: 0.0, consensus: 0.0, communities: 0 }
+                }
+            };
             tick();
-            Ok(StructureStatistics::of(&result, objective))
+            Ok(statistics)
         })
         .collect();
     let mut draws = Vec::with_capacity(outcomes.len());
