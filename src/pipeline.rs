@@ -929,6 +929,7 @@ fn write_graph_measures(
     Ok(())
 }
 
+#[allow(clippy::too_many_arguments)]
 fn write_tables(
     config: &RunConfig,
     output: &OutputFolder,

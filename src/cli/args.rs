@@ -139,7 +139,7 @@ impl PowerArgs {
         if !self.proportions.is_empty() {
             let sum: f64 = self.proportions.iter().sum();
             if self.proportions.len() < 2
-                || self.proportions.iter().any(|&p| !(p > 0.0))
+                || self.proportions.iter().any(|&p| p.is_nan() || p <= 0.0)
                 || (sum - 1.0).abs() > 1e-6
             {
                 return Err(invalid(
