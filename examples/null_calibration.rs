@@ -3,7 +3,7 @@
 //! often the test says "subgroups supported" at alpha = 0.05, and on planted cohorts how often
 //! it does, with the adjusted Rand index of the communities with the planted subgroups.
 //!
-//! Run: cargo run --release --example null_calibration [-- COHORTS DRAWS N SEPARATION...]
+//! Run: cargo run --release --example null_calibration [-- [--gaussian] COHORTS DRAWS N SEPARATION...]
 //! (defaults: 40 cohorts, 39 draws, N = 120, separations 0.0 and 0.3 and 0.6). Each separation
 //! after the first runs half as many cohorts.
 
@@ -15,7 +15,10 @@ use strata::similarity::pearson;
 use strata::validation::{adjusted_rand_index, null_test, NullOptions};
 
 fn main() {
-    let args: Vec<String> = std::env::args().skip(1).collect();
+    // --gaussian: no age or motion effects (the generator's only non-Gaussian ingredients in a
+    // homogeneous cohort: uniform ages and log-normal motion), so rows are exactly Gaussian.
+    let gaussian = std::env::args().any(|arg| arg == "--gaussian");
+    let args: Vec<String> = std::env::args().skip(1).filter(|arg| arg != "--gaussian").collect();
     let cohorts: usize = args.first().and_then(|a| a.parse().ok()).unwrap_or(40);
     let draws: usize = args.get(1).and_then(|a| a.parse().ok()).unwrap_or(39);
     let participants: usize = args.get(2).and_then(|a| a.parse().ok()).unwrap_or(120);
@@ -37,6 +40,8 @@ fn main() {
                 participant_count: participants,
                 seed: 1_000 + cohort as u64,
                 separation,
+                age_effect: if gaussian { 0.0 } else { Scenario::default().age_effect },
+                motion_effect: if gaussian { 0.0 } else { Scenario::default().motion_effect },
                 ..Scenario::default()
             };
             let scenario = if separation == 0.0 { base.homogeneous() } else { base };
