@@ -29,6 +29,7 @@
 // built once, on the failure path, so their size does not matter.
 #![allow(clippy::result_large_err)]
 
+pub mod check;
 pub mod communities;
 pub mod config;
 pub mod demo;

@@ -12,7 +12,7 @@ pub mod nifti;
 mod similarity;
 mod table;
 
-pub use cohort::{discover_inputs, Cohort, InputKind, InputOptions, InputSource};
+pub use cohort::{discover_inputs, participant_label, Cohort, InputKind, InputOptions, InputSource};
 pub use error::ReadError;
 pub use similarity::read_similarity;
 pub use table::{read_participants, read_table, ParticipantsTable};
