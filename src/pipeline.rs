@@ -194,6 +194,19 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 "{} features per participant; computing participant similarity",
                 features.matrix.feature_count()
             ));
+            let done = &features.summary;
+            let layout = match cohort.kind {
+                read::InputKind::SeedMaps => format!(
+                    "{} voxels outside the mask, {} dropped (not finite or zero in some participant)",
+                    done.voxels_outside_mask, done.voxels_dropped
+                ),
+                _ => "upper-triangle edges of each matrix".to_string(),
+            };
+            log.detail(&format!(
+                "features: {layout}; {} values clipped at |r| = 1 before Fisher z; feature matrix {:.1} MiB",
+                done.clipped_values,
+                (done.participants * done.features * 4) as f64 / 1_048_576.0
+            ));
             let similarity = timings.time(log, "similarity", || {
                 let _bar = log.progress("similarity", features.matrix.feature_count(), "features");
                 similarity::pearson(&features.matrix)

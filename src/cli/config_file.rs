@@ -396,7 +396,12 @@ pub fn defaults_text() -> String {
             heading = Some(this_heading);
         }
         text.push('\n');
-        let help = arg.get_long_help().or(arg.get_help()).map(|help| help.to_string()).unwrap_or_default();
+        let mut help =
+            arg.get_long_help().or(arg.get_help()).map(|help| help.to_string()).unwrap_or_default();
+        // clap drops the final full stop of one-paragraph help; the comment keeps it.
+        if !help.trim_end().ends_with('.') {
+            help = help.trim_end().to_string() + ".";
+        }
         text.push_str(&comment_lines(&help, 95));
         if let Some(values) = (*kind == Kind::Choice).then(|| possible_values(key)) {
             text.push_str(&format!("# One of: {}.\n", values.join(", ")));
