@@ -557,7 +557,18 @@ fn check_values(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Finding>
     let with_non_finite: Vec<String> =
         stats.iter().filter(|s| s.non_finite > 0).map(|s| s.participant.clone()).collect();
     let layout = match cohort.kind {
-        InputKind::SeedMaps => format!("grid {}", shape_text(&first.shape)),
+        InputKind::SeedMaps => match first.affine {
+            Some(affine) => {
+                let size: Vec<String> = (0..3)
+                    .map(|axis| {
+                        let length = (0..3).map(|row| affine[row][axis].powi(2)).sum::<f64>().sqrt();
+                        format!("{length:.2}")
+                    })
+                    .collect();
+                format!("grid {}, voxels {} mm", shape_text(&first.shape), size.join("x"))
+            }
+            None => format!("grid {}", shape_text(&first.shape)),
+        },
         _ => format!("R = {} regions", first.shape[0]),
     };
     let mut found = format!("{layout}; values {min:.4} to {max:.4}");

@@ -234,3 +234,67 @@ fn completions_and_manual_page_come_from_the_clap_definition() {
     let run_page = std::fs::read_to_string(dir.path().join("man/strata-run.1")).unwrap();
     assert!(run_page.contains("min\\-community\\-size"), "{run_page}");
 }
+
+/// A 4 x 4 x 4 seed-map cohort of 6 participants (4 mm voxels, strata's demo grid header),
+/// values (k % 13 - 6) / 10 + 0.05: never zero, from -0.55 to 0.65.
+fn map_cohort(dir: &Path) {
+    let mut table = String::from("participant_id\tdiagnosis\n");
+    for index in 0..6usize {
+        let id = format!("sub-{:02}", index + 1);
+        table.push_str(&format!("{id}\t{}\n", if index % 2 == 0 { "insomnia" } else { "control" }));
+        let mut volume = ndarray::Array3::from_shape_fn((4, 4, 4), |(i, j, k)| {
+            (((index * 5 + i * 3 + j * 7 + k) % 13) as f32 - 6.0) / 10.0 + 0.05
+        });
+        if index == 2 {
+            volume[[0, 0, 0]] = f32::NAN;
+        }
+        write_map(&dir.join(format!("{id}_seedmap.nii.gz")), &volume);
+    }
+    std::fs::write(dir.join("participants.tsv"), table).unwrap();
+}
+
+fn write_map(path: &Path, volume: &ndarray::Array3<f32>) {
+    let header = strata::demo::grid_header([4, 4, 4], 16, "test");
+    strata::demo::write_volume_f32(path, &header, volume).unwrap();
+}
+
+#[test]
+fn check_reports_grid_nan_and_mask_of_seed_maps() {
+    let dir = tempfile::tempdir().unwrap();
+    map_cohort(dir.path());
+    let mut args = CHECK.to_vec();
+    args[2] = "sub-*_seedmap.nii.gz";
+    // Memory: 6 x 63 x 4 + 6 x 6 x 4 = 1,656 bytes = 1.6 KiB.
+    expect(
+        &strata(&args, dir.path()),
+        0,
+        &[
+            "ok    matching            seed maps: 6 file(s); 6 of 6 participants matched",
+            "warn  values              grid 4x4x4, voxels 4.00x4.00x4.00 mm; values -0.5500 to 0.6500; 1 participant(s) with NaN/Inf values (sub-03)",
+            "ok    features            63 features: mask of 63 voxels (98.4% of the 4x4x4 grid, finite and non-zero in every participant)",
+            "ok    memory              about 1.6 KiB for the feature matrix (6 x 63 x 4 bytes)",
+            "verdict: strata run would pass these checks.",
+        ],
+    );
+    // A mask of the half i >= 2 (32 voxels), which leaves out the NaN voxel (0, 0, 0).
+    let mask = ndarray::Array3::from_shape_fn((4, 4, 4), |(i, _, _)| if i >= 2 { 1.0f32 } else { 0.0 });
+    write_map(&dir.path().join("mask.nii.gz"), &mask);
+    args.extend(["--mask", "mask.nii.gz"]);
+    expect(
+        &strata(&args, dir.path()),
+        0,
+        &["ok    features            32 features: mask of 32 voxels (50.0% of the 4x4x4 grid, from --mask)"],
+    );
+    // A mask that includes the NaN voxel: run would stop in the features stage.
+    let mask = ndarray::Array3::<f32>::ones((4, 4, 4));
+    write_map(&dir.path().join("mask.nii.gz"), &mask);
+    expect(
+        &strata(&args, dir.path()),
+        3,
+        &[
+            "FAIL  features            ",
+            "participant sub-03",
+            "verdict: strata run would stop; failed: features.",
+        ],
+    );
+}
