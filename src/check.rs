@@ -314,7 +314,12 @@ pub fn check(config: &RunConfig) -> CheckReport {
             let features = check_features(config, cohort, &mut findings);
             (stats, features)
         }
-        Some(_) => (None, None),
+        Some(_) => {
+            let note = "not applicable: a precomputed similarity has no per-participant values or features";
+            findings.push(Finding::ok("values", note));
+            findings.push(Finding::ok("features", note));
+            (None, None)
+        }
         None => {
             findings.push(Finding::skipped("values", "matching"));
             findings.push(Finding::skipped("features", "matching"));
@@ -682,11 +687,15 @@ fn check_features(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Findin
 fn check_memory(participants: usize, features: usize, findings: &mut Vec<Finding>) {
     const NAME: &str = "memory";
     let bytes = expected_bytes(participants, features);
-    let found = format!(
-        "about {} for the feature matrix ({participants} x {features} x 4 bytes) and the similarity \
-         ({participants} x {participants} x 4 bytes)",
-        human_bytes(bytes)
-    );
+    let found = if features == 0 {
+        format!("about {} for the similarity ({participants} x {participants} x 4 bytes)", human_bytes(bytes))
+    } else {
+        format!(
+            "about {} for the feature matrix ({participants} x {features} x 4 bytes) and the similarity \
+             ({participants} x {participants} x 4 bytes)",
+            human_bytes(bytes)
+        )
+    };
     match available_memory() {
         Some(available) if bytes as f64 > MEMORY_WARN_FRACTION * available as f64 => {
             findings.push(Finding::warn(

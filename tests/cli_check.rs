@@ -298,3 +298,26 @@ fn check_reports_grid_nan_and_mask_of_seed_maps() {
         ],
     );
 }
+
+#[test]
+fn check_of_a_precomputed_similarity() {
+    let dir = tempfile::tempdir().unwrap();
+    matrix_cohort(dir.path(), 8);
+    // A valid 8 x 8 similarity: 1 on the diagonal, 0.1 x (i + j) / 14 elsewhere.
+    let similarity =
+        Array2::<f32>::from_shape_fn((8, 8), |(i, j)| if i == j { 1.0 } else { 0.1 * (i + j) as f32 / 14.0 });
+    ndarray_npy::write_npy(dir.path().join("similarity.npy"), &similarity).unwrap();
+    let mut args = CHECK.to_vec();
+    args[1] = "--similarity";
+    args[2] = "similarity.npy";
+    // Memory: 8 x 8 x 4 = 256 bytes.
+    expect(
+        &strata(&args, dir.path()),
+        0,
+        &[
+            "ok    matching            8 participants, a precomputed similarity matrix 8x8; off-diagonal values 0.007 to 0.093",
+            "ok    values              not applicable",
+            "ok    memory              about 256 B for the similarity (8 x 8 x 4 bytes)",
+        ],
+    );
+}
