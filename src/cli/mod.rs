@@ -24,8 +24,17 @@ use crate::error::Error;
 pub fn run() -> Result<(), Error> {
     install_interrupt_handler();
     let parsed = parse(std::env::args_os().collect())?;
-    run_parsed(parsed)
+    let result = run_parsed(parsed);
+    if result.is_err() && crate::report::interrupted() {
+        // The signal handler is removing the output and will exit with code 130: an error
+        // caused by the removal (a file vanished) must not win the race with another code.
+        std::thread::sleep(INTERRUPT_GRACE);
+    }
+    result
 }
+
+/// How long a failed run waits for the signal handler to finish and exit.
+const INTERRUPT_GRACE: std::time::Duration = std::time::Duration::from_secs(10);
 
 /// A parsed command line: the flags, merged with the configuration file if one was given.
 #[derive(Debug)]

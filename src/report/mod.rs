@@ -13,7 +13,7 @@ mod summary;
 pub mod tables;
 
 pub use log::Log;
-pub use output::{remove_staging_folders, OutputFolder};
+pub use output::{interrupted, remove_staging_folders, OutputFolder};
 pub use provenance::{file_sha256, utc_timestamp, InputDigest, Provenance};
 pub use summary::{CommunitySummary, ComparisonSummary, GraphMeasuresSummary, RunSummary, Warning};
 pub use tables::Table;

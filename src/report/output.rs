@@ -10,7 +10,17 @@
 
 use std::fs;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Mutex;
+
+/// Set when [`remove_staging_folders`] has started: the process is being interrupted.
+static INTERRUPTED: AtomicBool = AtomicBool::new(false);
+
+/// Whether the process is being interrupted (its staging folders are being removed); an error
+/// that follows (a file vanished under a writer) is a consequence, not a failure to report.
+pub fn interrupted() -> bool {
+    INTERRUPTED.load(Ordering::SeqCst)
+}
 
 /// Name of the marker file inside a staging folder; it holds the writing process's id. Only
 /// folders holding it are ever removed as stale.
@@ -34,6 +44,7 @@ fn unregister(path: &Path) {
 /// Removes every staging folder this process is writing; returns how many were removed. Called
 /// from the signal handler before the process exits.
 pub fn remove_staging_folders() -> usize {
+    INTERRUPTED.store(true, Ordering::SeqCst);
     let Ok(mut list) = STAGING.lock() else { return 0 };
     let mut removed = 0;
     for path in list.drain(..) {
