@@ -134,6 +134,56 @@ pub enum ConfigError {
         /// What is wrong and what to do.
         message: String,
     },
+    /// A value the run needs was given neither as a flag nor in the configuration file.
+    #[error("{flag}: required; give {flag} {placeholder} on the command line or {key} = ... in a configuration file")]
+    Missing {
+        /// The flag.
+        flag: String,
+        /// Its placeholder (`DIR`, `TSV`).
+        placeholder: String,
+        /// The key of the configuration file.
+        key: String,
+    },
+    /// The configuration file cannot be read.
+    #[error("{}: cannot read the configuration file: {source}", path.display())]
+    FileRead {
+        /// The file.
+        path: PathBuf,
+        /// Why.
+        source: std::io::Error,
+    },
+    /// The configuration file is not TOML.
+    #[error("{}: not valid TOML: {message}", path.display())]
+    FileSyntax {
+        /// The file.
+        path: PathBuf,
+        /// The parser's message and line.
+        message: String,
+    },
+    /// The configuration file has a key that is not a flag of `strata run`.
+    #[error("{}: unknown key '{key}'{hint}; known keys: {known}", path.display())]
+    UnknownKey {
+        /// The file.
+        path: PathBuf,
+        /// The key found.
+        key: String,
+        /// A suggestion, or empty.
+        hint: String,
+        /// Every known key, comma-separated.
+        known: String,
+    },
+    /// A key of the configuration file has a value of the wrong type or outside its range.
+    #[error("{}: key '{key}': found {found}; allowed: {allowed}", path.display())]
+    FileValue {
+        /// The file.
+        path: PathBuf,
+        /// The key.
+        key: String,
+        /// The value found, as TOML.
+        found: String,
+        /// The values allowed (or what is wrong with the value found).
+        allowed: String,
+    },
 }
 
 fn invalid(flag: &str, message: impl Into<String>) -> ConfigError {

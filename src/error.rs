@@ -36,6 +36,12 @@ pub enum Error {
     /// The demo cohort could not be generated.
     #[error(transparent)]
     Demo(#[from] crate::demo::DemoError),
+    /// `strata check` found problems that would stop `strata run` (the report lists them).
+    #[error("check: strata run would stop on these inputs; failed checks: {failed}")]
+    CheckFailed {
+        /// The names of the failed checks, comma-separated.
+        failed: String,
+    },
 }
 
 /// Messages list at most this many participant ids, then "and N more".
@@ -65,6 +71,9 @@ pub mod exit_code {
     pub const ANALYSIS: i32 = 4;
     /// The outputs could not be written (folder exists, disk full, permissions).
     pub const OUTPUT: i32 = 5;
+    /// Interrupted by Ctrl-C or a termination signal; the unfinished output folder was removed
+    /// (128 + 2, the shell's code for SIGINT: common practice).
+    pub const INTERRUPTED: i32 = 130;
 }
 
 impl Error {
@@ -72,7 +81,7 @@ impl Error {
     pub fn exit_code(&self) -> i32 {
         match self {
             Error::Config(_) => exit_code::USAGE,
-            Error::Read(_) | Error::Feature(_) => exit_code::INPUT,
+            Error::Read(_) | Error::Feature(_) | Error::CheckFailed { .. } => exit_code::INPUT,
             Error::Community(_) | Error::Null(_) | Error::Stability(_) => exit_code::ANALYSIS,
             Error::Assign(crate::assign::AssignError::InvalidConfidence { .. }) => exit_code::USAGE,
             Error::Assign(_) => exit_code::INPUT,

@@ -30,6 +30,7 @@
 #![allow(clippy::result_large_err)]
 
 pub mod assign;
+pub mod check;
 pub mod communities;
 pub mod config;
 pub mod demo;

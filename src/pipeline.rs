@@ -179,6 +179,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 None => None,
             };
             let features = timings.time(log, "features", || {
+                let _bar = log.progress("reading", cohort.sources.len(), "participants");
                 let options = FeatureOptions {
                     mask: config.mask.clone(),
                     values: match config.values {
@@ -193,7 +194,23 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 "{} features per participant; computing participant similarity",
                 features.matrix.feature_count()
             ));
-            let similarity = timings.time(log, "similarity", || similarity::pearson(&features.matrix));
+            let done = &features.summary;
+            let layout = match cohort.kind {
+                read::InputKind::SeedMaps => format!(
+                    "{} voxels outside the mask, {} dropped (not finite or zero in some participant)",
+                    done.voxels_outside_mask, done.voxels_dropped
+                ),
+                _ => "upper-triangle edges of each matrix".to_string(),
+            };
+            log.detail(&format!(
+                "features: {layout}; {} values clipped at |r| = 1 before Fisher z; feature matrix {:.1} MiB",
+                done.clipped_values,
+                (done.participants * done.features * 4) as f64 / 1_048_576.0
+            ));
+            let similarity = timings.time(log, "similarity", || {
+                let _bar = log.progress("similarity", features.matrix.feature_count(), "features");
+                similarity::pearson(&features.matrix)
+            });
             (Some(features), similarity)
         }
     };
@@ -201,6 +218,15 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         "community detection ({}) over {} graphs of the sweep",
         config.method.name(),
         config.levels().len()
+    ));
+    log.detail(&format!(
+        "sweep: {} rule, {} graphs, {} trials each, {} edges, resolution {}, seed {}",
+        value_name(&config.graph),
+        config.levels().len(),
+        config.trials,
+        value_name(&config.edge_weights),
+        config.resolution,
+        config.seed
     ));
     let community_options = CommunityOptions {
         levels: config.levels(),
@@ -212,8 +238,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         consensus_threshold: config.consensus_threshold,
         seed: config.seed,
     };
-    let communities =
-        timings.time(log, "communities", || communities::detect(&similarity, &community_options))?;
+    let communities = timings.time(log, "communities", || {
+        let _bar = log.progress("sweep", config.levels().len() * config.trials, "trials");
+        communities::detect(&similarity, &community_options)
+    })?;
     let validated = validate(
         config,
         log,
@@ -468,6 +496,11 @@ fn write_validation_tables(
         table.write(&output.path().join("null_distribution.tsv"))?;
     }
     Ok(())
+}
+
+/// The command-line spelling of a flag value.
+fn value_name(value: &impl clap::ValueEnum) -> String {
+    value.to_possible_value().map_or_else(String::new, |value| value.get_name().to_string())
 }
 
 fn collect_community_warnings(
@@ -1069,9 +1102,12 @@ fn write_json(path: &Path, value: &impl serde::Serialize) -> Result<(), Error> {
         .map_err(|source| WriteError::Io { path: path.to_path_buf(), source }.into())
 }
 
-/// The BIDS derivative dataset description (BIDS v1.11.1: Name, BIDSVersion, DatasetType,
-/// GeneratedBy with Name and Version).
+/// The BIDS derivative dataset description (BIDS v1.11.1: Name and BIDSVersion required,
+/// DatasetType "derivative", GeneratedBy required for derivatives, each entry with Name required
+/// and Version recommended). The schema's GeneratedBy entries allow only Name, Version,
+/// Description, CodeURL and Container, so the command line is recorded in Description.
 pub fn dataset_description() -> serde_json::Value {
+    let command: Vec<String> = std::env::args().map(|arg| shell_quoted(&arg)).collect();
     json!({
         "Name": "strata participant subgroup analysis",
         "BIDSVersion": BIDS_VERSION,
@@ -1079,9 +1115,23 @@ pub fn dataset_description() -> serde_json::Value {
         "GeneratedBy": [{
             "Name": "strata",
             "Version": crate::VERSION,
-            "Description": std::env::args().collect::<Vec<_>>().join(" "),
+            "Description": format!(
+                "Data-driven participant subgroups (research software). Command line: {}",
+                command.join(" ")
+            ),
         }],
     })
+}
+
+/// An argument as a POSIX shell would need it typed: unchanged when it holds only safe
+/// characters, else in single quotes (with embedded quotes escaped as '\'').
+fn shell_quoted(arg: &str) -> String {
+    let safe = !arg.is_empty() && arg.chars().all(|c| c.is_ascii_alphanumeric() || "-_./:=,+@%".contains(c));
+    if safe {
+        arg.to_string()
+    } else {
+        format!("'{}'", arg.replace('\'', "'\\''"))
+    }
 }
 
 fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>, Error> {

@@ -14,6 +14,8 @@ Exit codes:
   3  invalid input data (files or participants table); nothing was written
   4  the analysis could not be carried out on these inputs
   5  the outputs could not be written (folder exists, permissions, disk)
+  130  interrupted (Ctrl-C or a termination signal); the unfinished output folder was removed
+strata check exits 0 when run would pass its checks and 3 when it would stop.
 
 strata is research software: its subgroups and maps are not diagnoses and not for individual
 clinical decisions.";
@@ -39,6 +41,10 @@ pub enum Command {
     /// Run the whole analysis on a cohort: read, similarity, communities, comparisons, outputs.
     #[command(after_help = RUN_EXAMPLE)]
     Run(Box<RunArgs>),
+    /// Examine a cohort's inputs without running the analysis: participants matched, files,
+    /// grids or R, value ranges, NaN, mask size, expected memory and run time, and anything that
+    /// would make `strata run` fail (exit code 3 then). Takes the flags and CONFIG of run.
+    Check(Box<RunArgs>),
     /// Generate the fictional Northfield demo cohort and run the whole analysis on it.
     Demo(DemoArgs),
     /// Partition any weighted undirected graph (edge list or dense .npy) into communities:
@@ -54,6 +60,15 @@ pub enum Command {
     /// of planted subgroups (adjusted Rand index) and the null test's power.
     #[command(after_help = POWER_EXAMPLE)]
     Power(PowerArgs),
+    /// Print a commented configuration file for `strata run` with every key at its default
+    /// (`strata defaults > run.toml`, edit, then `strata run run.toml`).
+    Defaults,
+    /// Print a shell completion script for strata (bash: `strata completions bash >
+    /// ~/.local/share/bash-completion/completions/strata`).
+    Completions(CompletionsArgs),
+    /// Print strata's manual page (roff) to standard output, or write one page per subcommand
+    /// into a folder (`man ./strata.1` shows it).
+    Manpage(ManpageArgs),
 }
 
 const POWER_EXAMPLE: &str = "\
@@ -202,6 +217,23 @@ pub struct AssignArgs {
     pub threads: usize,
 }
 
+/// Flags of `strata completions`.
+#[derive(Debug, Args)]
+pub struct CompletionsArgs {
+    /// The shell.
+    #[arg(value_enum, value_name = "SHELL")]
+    pub shell: clap_complete::Shell,
+}
+
+/// Flags of `strata manpage`.
+#[derive(Debug, Args)]
+pub struct ManpageArgs {
+    /// Write strata.1 and one strata-SUBCOMMAND.1 per subcommand into this folder instead of
+    /// printing strata.1.
+    #[arg(long, value_name = "DIR")]
+    pub out_dir: Option<PathBuf>,
+}
+
 const PARTITION_EXAMPLE: &str = "\
 Graph files:
   edge list: one edge per line, 'i j w' separated by tabs or spaces (w optional, default 1);
@@ -308,27 +340,25 @@ Example:
   strata run --inputs 'maps/sub-*_seedmap.nii.gz' --participants participants.tsv \\
              --group-column diagnosis --contrast insomnia,control --out results/";
 
-/// Flags of `strata run`.
+/// Flags of `strata run` (and of `strata check`, which reads the same inputs).
 #[derive(Debug, Args)]
 pub struct RunArgs {
+    /// A configuration file (TOML) holding any of the flags below as keys in snake_case
+    /// (`strata defaults` prints one); flags on the command line take the place of its keys.
+    #[arg(value_name = "CONFIG")]
+    pub config: Option<PathBuf>,
     /// Input files: a glob pattern or paths (repeat the flag or separate with commas). 3D NIfTI
     /// seed maps (.nii, .nii.gz) or region matrices (.npy R x R or one N x R x R stack, .csv,
-    /// .tsv). Quote globs so the shell does not expand them.
-    #[arg(
-        long,
-        value_name = "GLOB",
-        required_unless_present = "similarity",
-        value_delimiter = ',',
-        help_heading = "Inputs"
-    )]
+    /// .tsv). Quote globs so the shell does not expand them. Required, unless --similarity.
+    #[arg(long, value_name = "GLOB", value_delimiter = ',', help_heading = "Inputs")]
     pub inputs: Vec<String>,
     /// A precomputed participant similarity matrix (.npy, N x N, rows in participants-table
     /// order) in place of --inputs: communities, sweep and tables are written, maps are not.
     #[arg(long, value_name = "NPY", conflicts_with_all = ["inputs", "mask", "atlas", "match_column"], help_heading = "Inputs")]
     pub similarity: Option<PathBuf>,
-    /// BIDS participants table (tab-separated, first column participant_id).
+    /// BIDS participants table (tab-separated, first column participant_id). Required.
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
-    pub participants: PathBuf,
+    pub participants: Option<PathBuf>,
     /// Match files to participants by this table column (its value must appear in the file
     /// name) instead of the `sub-<label>` in the file name.
     #[arg(long, value_name = "COLUMN", help_heading = "Inputs")]
@@ -345,12 +375,12 @@ pub struct RunArgs {
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
     pub atlas: Option<PathBuf>,
 
-    /// Participants-table column holding the group labels (for example diagnosis).
+    /// Participants-table column holding the group labels (for example diagnosis). Required.
     #[arg(long, value_name = "COLUMN", help_heading = "Comparison")]
-    pub group_column: String,
-    /// Contrast A,B: maps of A minus B, both levels of --group-column.
+    pub group_column: Option<String>,
+    /// Contrast A,B: maps of A minus B, both levels of --group-column. Required.
     #[arg(long, value_name = "A,B", help_heading = "Comparison")]
-    pub contrast: String,
+    pub contrast: Option<String>,
     /// False-discovery level used to count surviving features in the tables.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA, help_heading = "Comparison")]
     pub alpha: f64,
@@ -424,8 +454,9 @@ pub struct RunArgs {
     pub subsample_fraction: f64,
 
     /// Output folder (created; refused if it exists and is not empty, unless --force).
+    /// Required by run; check reports whether run could write it.
     #[arg(long, value_name = "DIR", help_heading = "Output")]
-    pub out: PathBuf,
+    pub out: Option<PathBuf>,
     /// Replace an existing output folder (the old one is removed only after the new run finished).
     #[arg(long, help_heading = "Output")]
     pub force: bool,
@@ -439,8 +470,30 @@ pub struct RunArgs {
 }
 
 impl RunArgs {
-    /// Builds the validated configuration.
+    /// Builds the validated configuration of `strata run`.
     pub fn into_config(self) -> Result<RunConfig, ConfigError> {
+        self.into_config_for(true)
+    }
+
+    /// Builds the validated configuration; without `needs_out` a missing --out is left empty
+    /// (`strata check`).
+    pub fn into_config_for(self, needs_out: bool) -> Result<RunConfig, ConfigError> {
+        let missing = |flag: &str, placeholder: &str| ConfigError::Missing {
+            flag: format!("--{flag}"),
+            placeholder: placeholder.into(),
+            key: flag.replace('-', "_"),
+        };
+        if self.inputs.is_empty() && self.similarity.is_none() {
+            return Err(missing("inputs", "GLOB"));
+        }
+        let participants = self.participants.ok_or_else(|| missing("participants", "TSV"))?;
+        let group_column = self.group_column.ok_or_else(|| missing("group-column", "COLUMN"))?;
+        let contrast = self.contrast.ok_or_else(|| missing("contrast", "A,B"))?;
+        let out = match self.out {
+            Some(out) => out,
+            None if needs_out => return Err(missing("out", "DIR")),
+            None => PathBuf::new(),
+        };
         RunConfig {
             graph: self.graph,
             densities: config::parse_densities(&self.densities)?,
@@ -452,13 +505,13 @@ impl RunArgs {
                 .transpose()?
                 .unwrap_or_default(),
             edge_weights: self.edges,
-            contrast: config::parse_contrast(&self.contrast)?,
+            contrast: config::parse_contrast(&contrast)?,
             inputs: self.inputs,
             similarity: self.similarity,
-            participants: self.participants,
+            participants,
             match_column: self.match_column,
-            group_column: self.group_column,
-            out: self.out,
+            group_column,
+            out,
             force: self.force,
             mask: self.mask,
             values: self.values,

@@ -99,6 +99,7 @@ fn trials(
             let mut rng = crate::seed::rng(options.seed, stage, &[index, trial]);
             let labels = options.method.run(graph, options.resolution, &mut rng);
             let quality = options.method.quality(graph, &labels, options.resolution);
+            crate::report::progress::tick(1);
             (labels, quality)
         })
         .collect()

@@ -216,6 +216,7 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
         .par_chunks_mut(width)
         .enumerate()
         .map(|(row, out)| {
+            crate::report::progress::tick(1);
             let path = &cohort.sources[row].path;
             let participant = &cohort.participant_ids[row];
             // Participant 0 was decoded whole for the candidate mask; the others decode only the
@@ -416,6 +417,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
         .par_chunks_mut(width)
         .enumerate()
         .map(|(row, out)| {
+            crate::report::progress::tick(1);
             let path = &cohort.sources[row].path;
             let participant = &cohort.participant_ids[row];
             let owned;

@@ -7,13 +7,14 @@
 
 mod log;
 mod output;
+pub mod progress;
 mod provenance;
 mod summary;
 pub mod tables;
 mod verdict;
 
 pub use log::Log;
-pub use output::OutputFolder;
+pub use output::{interrupted, remove_staging_folders, OutputFolder};
 pub use provenance::{file_sha256, utc_timestamp, InputDigest, Provenance};
 pub use summary::{
     CommunityStability, CommunitySummary, ComparisonSummary, GraphMeasuresSummary, NullTestSummary,

@@ -114,6 +114,7 @@ pub fn pearson(features: &FeatureMatrix) -> SimilarityMatrix {
                 }
             }
         }
+        crate::report::progress::tick(width as u64);
         block_start = block_end;
     }
 
