@@ -379,6 +379,11 @@ fn validate(
             seed: config.seed,
         };
         let outcome = timings.time(log, "null test", || {
+            let _bar = log.progress(
+                "null test",
+                config.null_draws * options.levels.len() * options.trials,
+                "trials",
+            );
             crate::validation::null_test(
                 similarity,
                 row_norms.as_deref(),
@@ -421,6 +426,11 @@ fn validate(
             seed: config.seed,
         };
         let outcome = timings.time(log, "stability", || {
+            let _bar = log.progress(
+                "stability",
+                config.subsamples * options.levels.len() * options.trials,
+                "trials",
+            );
             crate::validation::stability(similarity, &communities.partition, options, &stability_options)
         });
         match outcome {
