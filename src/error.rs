@@ -24,6 +24,9 @@ pub enum Error {
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
+    /// A run folder could not be read to render its report.
+    #[error(transparent)]
+    Report(#[from] crate::report::ReportError),
     /// The demo cohort could not be generated.
     #[error(transparent)]
     Demo(#[from] crate::demo::DemoError),
@@ -67,6 +70,7 @@ impl Error {
             Error::Community(_) => exit_code::ANALYSIS,
             Error::Write(_) => exit_code::OUTPUT,
             Error::Demo(_) => exit_code::OUTPUT,
+            Error::Report(_) => exit_code::INPUT,
         }
     }
 }

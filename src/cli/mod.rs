@@ -43,6 +43,11 @@ pub fn run_with(cli: Cli) -> Result<(), Error> {
             }
             Ok(())
         }
+        Command::Report(report) => {
+            let path = crate::report::write_report(&report.run_dir)?;
+            println!("{}", path.display());
+            Ok(())
+        }
         Command::Demo(demo) => {
             install_threads(demo.threads)?;
             let text = crate::pipeline::demo(&demo.into_options()?, &log)?;

@@ -2,17 +2,23 @@
 //! appears whole or not at all.
 //!
 //! Everything a run reports comes from one [`RunSummary`]: the text printed at the end, the
-//! `summary.json` for scripts and (later) the HTML report. Every warning is a variant of
+//! `summary.json` for scripts and the HTML report (`report.html`, [`html`], rendered from the
+//! run folder's files so a finished run can be re-rendered without recomputing). Every warning is a variant of
 //! [`Warning`], whose text gives the likely cause and what to try.
 
+pub mod figures;
+pub mod html;
 mod log;
 mod output;
 mod provenance;
+pub mod run_files;
 mod summary;
 pub mod tables;
 
 pub use log::Log;
 pub use output::OutputFolder;
+pub use html::write_report;
 pub use provenance::{file_sha256, utc_timestamp, InputDigest, Provenance};
 pub use summary::{CommunitySummary, ComparisonSummary, GraphMeasuresSummary, RunSummary, Warning};
+pub use run_files::ReportError;
 pub use tables::Table;
