@@ -85,7 +85,7 @@ pub fn write_report(dir: &Path) -> Result<PathBuf, crate::error::Error> {
 pub fn render(files: &RunFiles) -> String {
     let summary = &files.summary;
     let mut page = String::new();
-    let folder = files.dir.file_name().map_or_else(|| files.dir.display().to_string(), |n| n.to_string_lossy().into_owned());
+    let folder = folder_name(files);
     let _ = write!(
         page,
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
@@ -153,6 +153,16 @@ pub fn render(files: &RunFiles) -> String {
     }
     page.push_str("</section>\n</main>\n</body>\n</html>\n");
     page
+}
+
+/// The run folder's name: the final name the run was given (`summary.json` `output`), else the
+/// folder read.
+fn folder_name(files: &RunFiles) -> String {
+    let given = Path::new(&files.summary.output);
+    given
+        .file_name()
+        .or_else(|| files.dir.file_name())
+        .map_or_else(|| files.dir.display().to_string(), |name| name.to_string_lossy().into_owned())
 }
 
 /// The input kind in words.

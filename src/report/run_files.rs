@@ -87,6 +87,9 @@ pub struct ComparisonView {
 pub struct SummaryView {
     /// strata's version.
     pub strata_version: String,
+    /// The output folder the run was asked for (its final name; the report may be rendered
+    /// while the folder still has its staging name).
+    pub output: String,
     /// `seed_maps`, `region_matrices` or `similarity_matrix`.
     pub input_kind: String,
     /// Participants analysed.

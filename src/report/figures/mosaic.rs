@@ -57,7 +57,8 @@ impl Grid<'_> {
         row[0] * voxel[0] + row[1] * voxel[1] + row[2] * voxel[2] + row[3]
     }
 
-    /// Evenly spaced slice indices across the mask's extent along `axis`.
+    /// Evenly spaced slice indices across the mask's extent along `axis`, in increasing world
+    /// coordinate.
     pub fn slices(&self, axis: usize) -> Vec<usize> {
         let (mut low, mut high) = (usize::MAX, 0usize);
         for k in 0..self.dim[2] {
@@ -79,6 +80,9 @@ impl Grid<'_> {
             .map(|s| low + (span * (s as f64 + 1.0) / (SLICES_PER_ROW as f64 + 1.0)).round() as usize)
             .collect();
         slices.dedup();
+        if !self.axis(axis).1 {
+            slices.reverse();
+        }
         slices
     }
 
