@@ -78,16 +78,25 @@ fn check_page(run: &Path, name: &str) -> usize {
     let (dom, stderr) = chromium(&page, "--dump-dom");
     let console = console_lines(&stderr);
     assert!(console.is_empty(), "{name}: console messages:\n{}", console.join("\n"));
-    assert!(dom.contains("id=\"summary\"") && dom.contains("id=\"caution\""), "{name}: summary missing from the DOM");
+    assert!(
+        dom.contains("id=\"summary\"") && dom.contains("id=\"caution\""),
+        "{name}: summary missing from the DOM"
+    );
     let found = figures(&dom);
     assert!(!found.is_empty(), "{name}: no figure in the DOM");
     for figure in &found {
         let id = figure.split('"').nth(1).unwrap_or("?");
         assert!(figure.contains("<svg"), "{name}: figure {id} has no picture");
-        let marks = ["<image", "<rect", "<circle", "<polyline"].iter().map(|mark| figure.matches(mark).count()).sum::<usize>();
+        let marks = ["<image", "<rect", "<circle", "<polyline"]
+            .iter()
+            .map(|mark| figure.matches(mark).count())
+            .sum::<usize>();
         assert!(marks >= 3, "{name}: figure {id} is empty ({marks} marks)");
         if figure.contains("<image") {
-            assert!(figure.contains("href=\"data:image/png;base64,iVBORw0KGgo"), "{name}: figure {id}: raster not inline PNG");
+            assert!(
+                figure.contains("href=\"data:image/png;base64,iVBORw0KGgo"),
+                "{name}: figure {id}: raster not inline PNG"
+            );
         }
         assert!(figure.contains("<figcaption>"), "{name}: figure {id} has no caption");
     }
@@ -155,7 +164,10 @@ fn planted_markup_stays_text_in_chromium() {
     let (dom, stderr) = chromium(&page, "--dump-dom");
     assert!(console_lines(&stderr).is_empty(), "console messages: {stderr}");
     assert!(!dom.to_ascii_lowercase().contains("<script"), "a script element reached the DOM");
-    assert!(dom.contains("&lt;script&gt;document.title='x'&lt;/script&gt;"), "the planted text is not shown as text");
+    assert!(
+        dom.contains("&lt;script&gt;document.title='x'&lt;/script&gt;"),
+        "the planted text is not shown as text"
+    );
     assert!(dom.contains("<title>strata report: results</title>"), "the title was changed");
     check_page(&run, "planted-markup");
 }

@@ -119,7 +119,16 @@ fn optional_sections_appear_only_with_their_files_and_keys() {
     let inputs = small_cohort(dir.path());
     let out = run(dir.path(), &inputs, "insomnia,control", "results");
     let before = read(&out.join("report.html"));
-    for absent in ["table-composition", "table-covariates", "table-outcome", "table-stability", "figure-null", "figure-stability", "Null test", "Stability:"] {
+    for absent in [
+        "table-composition",
+        "table-covariates",
+        "table-outcome",
+        "table-stability",
+        "figure-null",
+        "figure-stability",
+        "Null test",
+        "Stability:",
+    ] {
         assert!(!before.contains(absent), "{absent} shown without its file");
     }
     std::fs::write(out.join("composition.tsv"), "test\tstatistic\tp\nchi-squared\t1.5\t0.47\n").unwrap();
@@ -163,7 +172,8 @@ fn markup_in_the_participants_table_shows_as_text() {
     // A group level that is a script tag: it reaches the summary, the figures and the tables.
     let table_path = dir.path().join("participants.tsv");
     let injected_level = "<script>alert(1)</script>";
-    std::fs::write(&table_path, read(&table_path).replace("\tinsomnia\t", &format!("\t{injected_level}\t"))).unwrap();
+    std::fs::write(&table_path, read(&table_path).replace("\tinsomnia\t", &format!("\t{injected_level}\t")))
+        .unwrap();
     let out = run(dir.path(), &inputs, &format!("{injected_level},control"), "results");
     let page = read(&out.join("report.html"));
     assert!(page.contains("&lt;script&gt;alert(1)&lt;/script&gt;"), "the level shows as text");
@@ -176,12 +186,19 @@ fn markup_in_the_participants_table_shows_as_text() {
     let first_id = text.lines().nth(1).unwrap().split('\t').next().unwrap().to_string();
     let injected_id = format!("{first_id}<script>alert(2)</script>");
     let injected_value = "<img src=x onerror=alert(3)>";
-    let replaced = text.replacen(&first_id, &injected_id, 1).replacen("\tcontrol\t", &format!("\t{injected_value}\t"), 1);
+    let replaced = text.replacen(&first_id, &injected_id, 1).replacen(
+        "\tcontrol\t",
+        &format!("\t{injected_value}\t"),
+        1,
+    );
     std::fs::write(&run_table, replaced).unwrap();
     let output = strata(&["report", "results"], dir.path());
     assert!(output.status.success(), "{}", stderr(&output));
     let page = read(&out.join("report.html"));
-    assert!(page.contains(&format!("{first_id}&lt;script&gt;alert(2)&lt;/script&gt;")), "the id shows as text");
+    assert!(
+        page.contains(&format!("{first_id}&lt;script&gt;alert(2)&lt;/script&gt;")),
+        "the id shows as text"
+    );
     assert!(page.contains("&lt;img src=x onerror=alert(3)&gt;"), "the value shows as text");
     assert!(!has_element(&page, "script") && !has_element(&page, "img"), "no injected element");
 }
@@ -194,6 +211,11 @@ fn report_needs_a_run_folder() {
     // Exit code 3 (invalid input data), as documented in --help.
     assert_eq!(output.status.code(), Some(3), "{}", stderr(&output));
     let message = stderr(&output);
-    assert!(message.contains("empty/summary.json: not found; `strata report` needs a run folder written by `strata run`"), "{message}");
+    assert!(
+        message.contains(
+            "empty/summary.json: not found; `strata report` needs a run folder written by `strata run`"
+        ),
+        "{message}"
+    );
     assert!(!dir.path().join("empty/report.html").exists());
 }

@@ -17,7 +17,7 @@ use serde_json::Value;
 use super::figures::charts::{self, figure, SweepPanel};
 use super::figures::colour::ColourMap;
 use super::figures::matrix::{community_order, network_order, participant_matrix, region_matrix};
-use super::figures::mosaic::Grid;
+use super::figures::mosaic::{Grid, Scale};
 use super::figures::svg::{format_tick, Svg};
 use super::figures::{quantile, symmetric_range, Figure};
 use super::run_files::{MapFile, RunFiles, REPORT_FILE};
@@ -116,7 +116,11 @@ pub fn render(files: &RunFiles) -> String {
         }
         page.push_str("</ul>\n");
     }
-    let _ = writeln!(page, "<p class=\"caution\" id=\"caution\"><strong>Research use only.</strong> {}</p>", escape(CAUTION));
+    let _ = writeln!(
+        page,
+        "<p class=\"caution\" id=\"caution\"><strong>Research use only.</strong> {}</p>",
+        escape(CAUTION)
+    );
     page.push_str("</section>\n");
 
     let (figures, mut notes) = build_figures(files);
@@ -178,7 +182,8 @@ fn kind_words(kind: &str) -> &'static str {
 pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
     let summary = &files.summary;
     let mut paragraphs = Vec::new();
-    let groups: Vec<String> = summary.group_counts.iter().map(|(level, count)| format!("{count} {level}")).collect();
+    let groups: Vec<String> =
+        summary.group_counts.iter().map(|(level, count)| format!("{count} {level}")).collect();
     paragraphs.push(format!(
         "Cohort: {} participants ({}; group column '{}'), {}: {}.",
         summary.participant_count,
@@ -192,7 +197,9 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
         let table = inputs.first().and_then(|input| input.get("path")).and_then(Value::as_str).unwrap_or("");
         let per_participant = inputs
             .iter()
-            .filter(|input| input.get("participant_id").and_then(Value::as_str).is_some_and(|id| !id.is_empty()))
+            .filter(|input| {
+                input.get("participant_id").and_then(Value::as_str).is_some_and(|id| !id.is_empty())
+            })
             .count();
         let other = inputs.len().saturating_sub(per_participant + 1);
         paragraphs.push(format!(
@@ -236,7 +243,9 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
     if let Some(test) = &files.optional.null_test {
         let verdict = match test.supported {
             Some(true) => ": the subgroups are supported by the null test",
-            Some(false) => ": the subgroups are not supported by the null test (no evidence of structure beyond chance)",
+            Some(false) => {
+                ": the subgroups are not supported by the null test (no evidence of structure beyond chance)"
+            }
             None => "",
         };
         paragraphs.push(format!(
@@ -247,7 +256,8 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
         ));
     }
     if let Some(stability) = &files.optional.stability {
-        let details: Vec<String> = stability.other.iter().map(|(key, value)| format!("{key} {value}")).collect();
+        let details: Vec<String> =
+            stability.other.iter().map(|(key, value)| format!("{key} {value}")).collect();
         paragraphs.push(format!(
             "Stability: median adjusted Rand index {} between resampled and full partitions{}.",
             stability.median_ari.map_or("n/a".into(), |ari| format!("{ari:.2}")),
@@ -260,7 +270,7 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
     );
     let alpha = summary.alpha.map_or("alpha".into(), format_number);
     let mut written: Vec<_> = summary.comparisons.iter().filter(|c| c.written).collect();
-    written.sort_by(|x, y| y.significant_features.cmp(&x.significant_features));
+    written.sort_by_key(|comparison| std::cmp::Reverse(comparison.significant_features));
     if written.is_empty() {
         let reason = summary.comparisons.iter().find_map(|c| c.reason.clone()).unwrap_or_default();
         paragraphs.push(format!("Differences: no {a} vs {b} contrast was computed ({reason})."));
@@ -268,7 +278,11 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
         let parts: Vec<String> = written
             .iter()
             .map(|c| {
-                let scope = if c.scope == "all" { "whole cohort".to_string() } else { format!("community {}", c.scope) };
+                let scope = if c.scope == "all" {
+                    "whole cohort".to_string()
+                } else {
+                    format!("community {}", c.scope)
+                };
                 format!(
                     "{scope} (n={} vs {}): {} feature(s) with q < {alpha}, peak t = {} at {}",
                     c.count_a,
@@ -279,7 +293,10 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
                 )
             })
             .collect();
-        paragraphs.push(format!("Differences, {a} minus {b} (Welch t, Benjamini-Hochberg q): {}.", parts.join("; ")));
+        paragraphs.push(format!(
+            "Differences, {a} minus {b} (Welch t, Benjamini-Hochberg q): {}.",
+            parts.join("; ")
+        ));
     }
     paragraphs
 }
@@ -294,7 +311,8 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
     let summary = &files.summary;
     if let Some(similarity) = &files.similarity {
         let off_diagonal = off_diagonal(similarity);
-        let range = (quantile(off_diagonal.iter().copied(), 0.02), quantile(off_diagonal.iter().copied(), 0.98));
+        let range =
+            (quantile(off_diagonal.iter().copied(), 0.02), quantile(off_diagonal.iter().copied(), 0.98));
         let range = if range.0 < range.1 { range } else { (-1.0, 1.0) };
         figures.push(figure(
             "figure-similarity",
@@ -322,7 +340,9 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
     if let Some(sweep) = &files.sweep {
         match sweep_figure(sweep, &summary.method) {
             Some(figure) => figures.push(figure),
-            None => notes.push("sweep.tsv has no parameter or communities column; sweep figure left out".into()),
+            None => {
+                notes.push("sweep.tsv has no parameter or communities column; sweep figure left out".into())
+            }
         }
     }
     if let Some(coassignment) = &files.coassignment {
@@ -339,7 +359,11 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
             "Null distribution",
             format!(
                 "{} of the null model ({}), with the observed value as the red line{}.",
-                if test.values.len() >= 2 { "Distribution of the test statistic over the null draws" } else { "Quantiles of the test statistic" },
+                if test.values.len() >= 2 {
+                    "Distribution of the test statistic over the null draws"
+                } else {
+                    "Quantiles of the test statistic"
+                },
                 test.statistic.clone().unwrap_or_else(|| "test statistic".into()),
                 test.p_value.map_or(String::new(), |p| format!("; p = {}", format_number(p)))
             ),
@@ -348,7 +372,12 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
     }
     if let Some(table) = &files.optional.stability_table {
         if let Some(values) = numeric_column(table, &["ari", "adjusted_rand_index"]) {
-            let median = files.optional.stability.as_ref().and_then(|s| s.median_ari).unwrap_or_else(|| quantile(values.iter().copied(), 0.5));
+            let median = files
+                .optional
+                .stability
+                .as_ref()
+                .and_then(|s| s.median_ari)
+                .unwrap_or_else(|| quantile(values.iter().copied(), 0.5));
             figures.push(figure(
                 "figure-stability",
                 "Stability under resampling",
@@ -396,7 +425,10 @@ fn sweep_figure(sweep: &crate::read::ParticipantsTable, method: &str) -> Option<
     let included: Vec<bool> = numeric_column(sweep, &["consensus_weight"])
         .map(|weights| weights.iter().map(|w| *w > 0.0).collect())
         .unwrap_or_else(|| vec![true; parameters.len()]);
-    let rule = sweep.column("graph").and_then(|column| column.first().map(|r| r.to_string())).unwrap_or_else(|| "density".into());
+    let rule = sweep
+        .column("graph")
+        .and_then(|column| column.first().map(|r| r.to_string()))
+        .unwrap_or_else(|| "density".into());
     let x_title = match rule.as_str() {
         "knn" | "mutual_knn" => "neighbours per participant (k)",
         "absolute" => "similarity threshold",
@@ -422,7 +454,8 @@ fn sweep_figure(sweep: &crate::read::ParticipantsTable, method: &str) -> Option<
 }
 
 fn read_matrix_map(map: &MapFile) -> Result<Array2<f32>, String> {
-    ndarray_npy::read_npy::<_, Array2<f32>>(&map.path).map_err(|error| format!("{}: cannot read ({error})", map.path.display()))
+    ndarray_npy::read_npy::<_, Array2<f32>>(&map.path)
+        .map_err(|error| format!("{}: cannot read ({error})", map.path.display()))
 }
 
 /// Communities 1..k present in the summary.
@@ -478,11 +511,16 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
                                     counts[cell] += 1;
                                 }
                             }
-                            let means = sums.iter().zip(&counts).map(|(s, &n)| if n > 0 { s / n as f64 } else { f64::NAN }).collect();
+                            let means = sums
+                                .iter()
+                                .zip(&counts)
+                                .map(|(s, &n)| if n > 0 { s / n as f64 } else { f64::NAN })
+                                .collect();
                             (*community, means)
                         })
                         .collect();
-                    let range = symmetric_range(profiles.iter().flat_map(|(_, v)| v.iter().copied()), 1.0, 0.01);
+                    let range =
+                        symmetric_range(profiles.iter().flat_map(|(_, v)| v.iter().copied()), 1.0, 0.01);
                     figures.push(figure(
                         "figure-profiles",
                         "Community profiles by network",
@@ -496,8 +534,16 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
                         .map(|(community, difference)| {
                             let means = (0..regions)
                                 .map(|i| {
-                                    let row: Vec<f64> = (0..regions).filter(|&j| j != i).map(|j| f64::from(difference[[i, j]])).filter(|v| v.is_finite()).collect();
-                                    if row.is_empty() { f64::NAN } else { row.iter().sum::<f64>() / row.len() as f64 }
+                                    let row: Vec<f64> = (0..regions)
+                                        .filter(|&j| j != i)
+                                        .map(|j| f64::from(difference[[i, j]]))
+                                        .filter(|v| v.is_finite())
+                                        .collect();
+                                    if row.is_empty() {
+                                        f64::NAN
+                                    } else {
+                                        row.iter().sum::<f64>() / row.len() as f64
+                                    }
                                 })
                                 .collect();
                             (*community, means)
@@ -513,7 +559,11 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
             }
         }
     }
-    let t_maps: Vec<&MapFile> = files.maps.iter().filter(|m| !m.is_volume && m.suffix == "t" && m.contrast.is_some() && m.group.is_none()).collect();
+    let t_maps: Vec<&MapFile> = files
+        .maps
+        .iter()
+        .filter(|m| !m.is_volume && m.suffix == "t" && m.contrast.is_some() && m.group.is_none())
+        .collect();
     let mut loaded = Vec::new();
     for map in t_maps {
         match read_matrix_map(map) {
@@ -521,7 +571,8 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
             Err(note) => notes.push(note),
         }
     }
-    let range = symmetric_range(loaded.iter().flat_map(|(_, v)| off_diagonal(v)), COLOUR_QUANTILE, T_COLOUR_FLOOR);
+    let range =
+        symmetric_range(loaded.iter().flat_map(|(_, v)| off_diagonal(v)), COLOUR_QUANTILE, T_COLOUR_FLOOR);
     let (a, b) = contrast_levels(files);
     for (map, values) in scope_sorted(loaded) {
         let scope = scope_words(&map.community);
@@ -542,7 +593,13 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
 
 /// Scopes in report order: the whole cohort, then communities by number.
 fn scope_sorted<T>(mut items: Vec<(&MapFile, T)>) -> Vec<(&MapFile, T)> {
-    items.sort_by_key(|(map, _)| if map.community == "all" { 0 } else { map.community.parse::<usize>().unwrap_or(usize::MAX - 1) + 1 });
+    items.sort_by_key(|(map, _)| {
+        if map.community == "all" {
+            0
+        } else {
+            map.community.parse::<usize>().unwrap_or(usize::MAX - 1) + 1
+        }
+    });
     items
 }
 
@@ -561,7 +618,10 @@ fn html_id(text: &str) -> String {
 
 fn contrast_levels(files: &RunFiles) -> (String, String) {
     let contrast = &files.summary.contrast;
-    (contrast.first().cloned().unwrap_or_else(|| "A".into()), contrast.get(1).cloned().unwrap_or_else(|| "B".into()))
+    (
+        contrast.first().cloned().unwrap_or_else(|| "A".into()),
+        contrast.get(1).cloned().unwrap_or_else(|| "B".into()),
+    )
 }
 
 /// A NIfTI map of the run.
@@ -594,15 +654,21 @@ fn mosaic_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
             if let Some(map) = files.map(scope, suffix, contrast) {
                 match read_volume_map(map) {
                     Ok(volume) if volume.dim == cohort.dim => target.push((scope.clone(), volume.values)),
-                    Ok(_) => notes.push(format!("{}: grid differs from the cohort mean map; left out", map.path.display())),
+                    Ok(_) => notes.push(format!(
+                        "{}: grid differs from the cohort mean map; left out",
+                        map.path.display()
+                    )),
                     Err(note) => notes.push(note),
                 }
             }
         }
     }
-    let in_mask = |values: &[f32]| -> Vec<f64> { values.iter().zip(&mask).filter(|(_, m)| **m).map(|(v, _)| f64::from(*v)).collect() };
+    let in_mask = |values: &[f32]| -> Vec<f64> {
+        values.iter().zip(&mask).filter(|(_, m)| **m).map(|(v, _)| f64::from(*v)).collect()
+    };
     let mean_range = symmetric_range(means.iter().flat_map(|(_, v)| in_mask(v)), COLOUR_QUANTILE, 0.01);
-    let t_range = symmetric_range(t_maps.iter().flat_map(|(_, v)| in_mask(v)), COLOUR_QUANTILE, T_COLOUR_FLOOR);
+    let t_range =
+        symmetric_range(t_maps.iter().flat_map(|(_, v)| in_mask(v)), COLOUR_QUANTILE, T_COLOUR_FLOOR);
     let (a, b) = contrast_levels(files);
     for scope in &scopes {
         let mean = means.iter().find(|(s, _)| s == scope);
@@ -615,11 +681,16 @@ fn mosaic_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
         let mut svg = Svg::new(width, 2000.0);
         let mut y = 0.0;
         if let Some((_, values)) = mean {
-            y += grid.draw(&mut svg, 0.0, y, values, ColourMap::BlueRed, mean_range, &format!("Mean Fisher z, {words}"), "z");
+            let title = format!("Mean Fisher z, {words}");
+            let scale =
+                Scale { map: ColourMap::BlueRed, range: mean_range, title: &title, colour_label: "z" };
+            y += grid.draw(&mut svg, (0.0, y), values, &scale);
             y += 10.0;
         }
         if let Some((_, values)) = t {
-            y += grid.draw(&mut svg, 0.0, y, values, ColourMap::BlueRed, t_range, &format!("Welch t, {a} minus {b}, {words}"), "t");
+            let title = format!("Welch t, {a} minus {b}, {words}");
+            let scale = Scale { map: ColourMap::BlueRed, range: t_range, title: &title, colour_label: "t" };
+            y += grid.draw(&mut svg, (0.0, y), values, &scale);
         }
         svg.set_height(y.ceil());
         let markup = svg.finish(&format!("slice mosaics, {words}"));
@@ -669,14 +740,22 @@ fn communities_table(files: &RunFiles) -> String {
         .iter()
         .map(|community| {
             let mut row = vec![
-                if community.community == 0 { "0 (unassigned)".to_string() } else { community.community.to_string() },
+                if community.community == 0 {
+                    "0 (unassigned)".to_string()
+                } else {
+                    community.community.to_string()
+                },
                 community.size.to_string(),
             ];
             for level in &levels {
                 let count = community.group_counts.iter().find(|(l, _)| l == level).map_or(0, |(_, n)| *n);
                 row.push(count.to_string());
             }
-            let values = membership.iter().zip(&consistency).filter(|(m, _)| **m == community.community).map(|(_, c)| *c);
+            let values = membership
+                .iter()
+                .zip(&consistency)
+                .filter(|(m, _)| **m == community.community)
+                .map(|(_, c)| *c);
             let median = quantile(values, 0.5);
             row.push(if median.is_finite() { format!("{median:.2}") } else { "n/a".into() });
             row
@@ -730,11 +809,23 @@ fn top_features_table(files: &RunFiles) -> (String, Vec<String>) {
     let communities = community_numbers(files);
     match files.summary.input_kind.as_str() {
         "region_matrices" => {
-            let Some(Ok(cohort)) = files.map("all", "mean", false).map(read_matrix_map) else { return (String::new(), notes) };
-            let names = files.atlas.as_ref().map(|atlas| atlas.names.clone()).filter(|names| names.len() == cohort.nrows());
-            let networks = files.atlas.as_ref().and_then(|atlas| atlas.networks.clone()).filter(|n| n.len() == cohort.nrows());
+            let Some(Ok(cohort)) = files.map("all", "mean", false).map(read_matrix_map) else {
+                return (String::new(), notes);
+            };
+            let names = files
+                .atlas
+                .as_ref()
+                .map(|atlas| atlas.names.clone())
+                .filter(|names| names.len() == cohort.nrows());
+            let networks = files
+                .atlas
+                .as_ref()
+                .and_then(|atlas| atlas.networks.clone())
+                .filter(|n| n.len() == cohort.nrows());
             let region = |index: usize| -> String {
-                let name = names.as_ref().map_or_else(|| format!("region {}", index + 1), |names| names[index].clone());
+                let name = names
+                    .as_ref()
+                    .map_or_else(|| format!("region {}", index + 1), |names| names[index].clone());
                 match &networks {
                     Some(networks) => format!("{name} ({})", networks[index]),
                     None => name,
@@ -772,7 +863,9 @@ fn top_features_table(files: &RunFiles) -> (String, Vec<String>) {
             }
         }
         "seed_maps" => {
-            let Some(Ok(cohort)) = files.map("all", "mean", false).map(read_volume_map) else { return (String::new(), notes) };
+            let Some(Ok(cohort)) = files.map("all", "mean", false).map(read_volume_map) else {
+                return (String::new(), notes);
+            };
             for community in communities {
                 let mean = match files.map(&community.to_string(), "mean", false).map(read_volume_map) {
                     Some(Ok(mean)) if mean.dim == cohort.dim => mean,
@@ -796,7 +889,8 @@ fn top_features_table(files: &RunFiles) -> (String, Vec<String>) {
                 for (index, difference) in voxels {
                     let mm = voxel_mm(&cohort, index);
                     let far = peaks.iter().all(|(_, other, _)| {
-                        (0..3).map(|axis| (mm[axis] - other[axis]).powi(2)).sum::<f64>().sqrt() >= PEAK_SEPARATION_MM
+                        (0..3).map(|axis| (mm[axis] - other[axis]).powi(2)).sum::<f64>().sqrt()
+                            >= PEAK_SEPARATION_MM
                     });
                     if far {
                         peaks.push((index, mm, difference));
@@ -823,7 +917,10 @@ fn top_features_table(files: &RunFiles) -> (String, Vec<String>) {
         return (String::new(), notes);
     }
     let columns: Vec<String> =
-        ["community", "rank", "feature", "community mean z", "cohort mean z", "difference"].iter().map(|c| c.to_string()).collect();
+        ["community", "rank", "feature", "community mean z", "cohort mean z", "difference"]
+            .iter()
+            .map(|c| c.to_string())
+            .collect();
     let separation = if files.summary.input_kind == "seed_maps" {
         format!(" Voxel peaks are at least {PEAK_SEPARATION_MM} mm apart.")
     } else {
@@ -844,7 +941,8 @@ fn voxel_mm(volume: &crate::read::nifti::Volume, index: usize) -> [f64; 3] {
     let a = &volume.affine;
     let mut mm = [0.0; 3];
     for (row, value) in mm.iter_mut().enumerate() {
-        *value = a[row][0] * ijk[0] as f64 + a[row][1] * ijk[1] as f64 + a[row][2] * ijk[2] as f64 + a[row][3];
+        *value =
+            a[row][0] * ijk[0] as f64 + a[row][1] * ijk[1] as f64 + a[row][2] * ijk[2] as f64 + a[row][3];
     }
     mm
 }
@@ -857,7 +955,11 @@ fn file_table(title: &str, id: &str, file: &str, table: &crate::read::Participan
     } else {
         body
     };
-    format!("<h3 id=\"{id}\">{}</h3>\n<p>From <span class=\"mono\">{}</span>.</p>\n{folded}", escape(title), escape(file))
+    format!(
+        "<h3 id=\"{id}\">{}</h3>\n<p>From <span class=\"mono\">{}</span>.</p>\n{folded}",
+        escape(title),
+        escape(file)
+    )
 }
 
 /// Tables of later stages, each when its file exists.
@@ -887,12 +989,14 @@ fn participants_table(files: &RunFiles) -> String {
             wanted.push(column);
         }
     }
-    let indices: Vec<usize> = wanted.iter().filter_map(|name| table.columns().iter().position(|c| c == name)).collect();
+    let indices: Vec<usize> =
+        wanted.iter().filter_map(|name| table.columns().iter().position(|c| c == name)).collect();
     let membership = files.membership();
     let consistency = files.consistency();
     let order = community_order(&membership, &consistency);
     let columns: Vec<String> = indices.iter().map(|&i| table.columns()[i].clone()).collect();
-    let rows: Vec<Vec<String>> = order.iter().map(|&row| indices.iter().map(|&i| table.rows()[row][i].clone()).collect()).collect();
+    let rows: Vec<Vec<String>> =
+        order.iter().map(|&row| indices.iter().map(|&i| table.rows()[row][i].clone()).collect()).collect();
     format!(
         "<h3 id=\"table-participants\">Participants by community</h3>\n<details><summary>{} participants (from participants.tsv; all columns are in that file)</summary>\n{}</details>\n",
         table.row_count(),
@@ -935,11 +1039,20 @@ fn parameters_table(files: &RunFiles) -> String {
         let rows: Vec<Vec<String>> = inputs
             .iter()
             .map(|input| {
-                ["participant_id", "path", "bytes", "sha256"].iter().map(|key| input.get(*key).map_or(String::new(), compact)).collect()
+                ["participant_id", "path", "bytes", "sha256"]
+                    .iter()
+                    .map(|key| input.get(*key).map_or(String::new(), compact))
+                    .collect()
             })
             .collect();
-        let columns: Vec<String> = ["participant_id", "path", "bytes", "sha256"].iter().map(|c| c.to_string()).collect();
-        let _ = write!(html, "<details><summary>{} input files with SHA-256 digests</summary>\n{}</details>\n", rows.len(), html_table(&columns, &rows));
+        let columns: Vec<String> =
+            ["participant_id", "path", "bytes", "sha256"].iter().map(|c| c.to_string()).collect();
+        let _ = write!(
+            html,
+            "<details><summary>{} input files with SHA-256 digests</summary>\n{}</details>\n",
+            rows.len(),
+            html_table(&columns, &rows)
+        );
     }
     html
 }

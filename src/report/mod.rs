@@ -15,10 +15,10 @@ pub mod run_files;
 mod summary;
 pub mod tables;
 
+pub use html::write_report;
 pub use log::Log;
 pub use output::OutputFolder;
-pub use html::write_report;
 pub use provenance::{file_sha256, utc_timestamp, InputDigest, Provenance};
-pub use summary::{CommunitySummary, ComparisonSummary, GraphMeasuresSummary, RunSummary, Warning};
 pub use run_files::ReportError;
+pub use summary::{CommunitySummary, ComparisonSummary, GraphMeasuresSummary, RunSummary, Warning};
 pub use tables::Table;

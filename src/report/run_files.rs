@@ -35,7 +35,9 @@ pub enum ReportError {
         what: &'static str,
     },
     /// A file every run writes cannot be parsed.
-    #[error("{path}: {message}; the run folder may be incomplete or from another program: run `strata run` again")]
+    #[error(
+        "{path}: {message}; the run folder may be incomplete or from another program: run `strata run` again"
+    )]
     Invalid {
         /// The file.
         path: PathBuf,
@@ -240,9 +242,11 @@ impl RunFiles {
             return Err(ReportError::Missing { path: summary_path, what: "the run summary" });
         }
         let summary_json: Value = read_json(&summary_path)?;
-        let summary: SummaryView = serde_json::from_value(summary_json.clone()).map_err(|error| {
-            ReportError::Invalid { path: summary_path.clone(), message: format!("unexpected content ({error})") }
-        })?;
+        let summary: SummaryView =
+            serde_json::from_value(summary_json.clone()).map_err(|error| ReportError::Invalid {
+                path: summary_path.clone(),
+                message: format!("unexpected content ({error})"),
+            })?;
         let participants_path = dir.join(PARTICIPANTS_FILE);
         if !participants_path.is_file() {
             return Err(ReportError::Missing {
@@ -400,7 +404,9 @@ pub fn read_null_test(summary: &Value) -> Option<NullTest> {
         Some(Value::Object(map)) => {
             let mut pairs: Vec<(f64, f64)> = map
                 .iter()
-                .filter_map(|(key, value)| Some((key.trim_end_matches('%').parse::<f64>().ok()?, value.as_f64()?)))
+                .filter_map(|(key, value)| {
+                    Some((key.trim_end_matches('%').parse::<f64>().ok()?, value.as_f64()?))
+                })
                 .map(|(p, v)| if p > 1.0 { (p / 100.0, v) } else { (p, v) })
                 .collect();
             pairs.sort_by(|a, b| a.0.total_cmp(&b.0));

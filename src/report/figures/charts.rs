@@ -72,11 +72,22 @@ pub struct SweepPanel<'a> {
 }
 
 /// Two panels over the graphs of the sweep, filled points for graphs in the consensus.
-pub fn sweep(parameters: &[f64], in_consensus: &[bool], panels: &[SweepPanel<'_>], x_title: &str, label: &str) -> String {
+pub fn sweep(
+    parameters: &[f64],
+    in_consensus: &[bool],
+    panels: &[SweepPanel<'_>],
+    x_title: &str,
+    label: &str,
+) -> String {
     let (panel_width, panel_height) = (330.0, 220.0);
     let mut svg = Svg::new(40.0 + panels.len() as f64 * (panel_width + 90.0), panel_height + 110.0);
     for (index, panel) in panels.iter().enumerate() {
-        let frame = Frame { left: 70.0 + index as f64 * (panel_width + 90.0), top: 34.0, width: panel_width, height: panel_height };
+        let frame = Frame {
+            left: 70.0 + index as f64 * (panel_width + 90.0),
+            top: 34.0,
+            width: panel_width,
+            height: panel_height,
+        };
         let x = frame.x(padded_domain(parameters.iter().copied(), false));
         let y = frame.y(padded_domain(panel.values.iter().copied(), panel.include_zero));
         frame.axes(&mut svg, x, y, x_title, panel.title);
@@ -104,14 +115,23 @@ pub fn sweep(parameters: &[f64], in_consensus: &[bool], panels: &[SweepPanel<'_>
 
 /// Small multiples: one network-by-network matrix of mean values per community, with a shared
 /// diverging colour bar. `profiles` holds (community, G x G values row-major).
-pub fn network_profiles(profiles: &[(usize, Vec<f64>)], networks: &[String], range: (f64, f64), colour_label: &str, label: &str) -> String {
+pub fn network_profiles(
+    profiles: &[(usize, Vec<f64>)],
+    networks: &[String],
+    range: (f64, f64),
+    colour_label: &str,
+    label: &str,
+) -> String {
     let groups = networks.len().max(1);
     let cell = (150.0 / groups as f64).clamp(10.0, 26.0);
     let side = cell * groups as f64;
     let label_room = 110.0;
     let per_row = ((820.0 - label_room) / (side + 24.0)).floor().max(1.0) as usize;
     let rows = profiles.len().div_ceil(per_row).max(1);
-    let mut svg = Svg::new(label_room + per_row.min(profiles.len()).max(1) as f64 * (side + 24.0) + 90.0, 30.0 + rows as f64 * (side + label_room + 10.0));
+    let mut svg = Svg::new(
+        label_room + per_row.min(profiles.len()).max(1) as f64 * (side + 24.0) + 90.0,
+        30.0 + rows as f64 * (side + label_room + 10.0),
+    );
     for (index, (community, values)) in profiles.iter().enumerate() {
         let (column, row) = (index % per_row, index / per_row);
         let left = label_room + column as f64 * (side + 24.0);
@@ -120,7 +140,11 @@ pub fn network_profiles(profiles: &[(usize, Vec<f64>)], networks: &[String], ran
         for i in 0..groups {
             for j in 0..groups {
                 let value = values.get(i * groups + j).copied().unwrap_or(f64::NAN);
-                let colour = if value.is_finite() { hex(ColourMap::BlueRed.value(value, range)) } else { "#fff".to_string() };
+                let colour = if value.is_finite() {
+                    hex(ColourMap::BlueRed.value(value, range))
+                } else {
+                    "#fff".to_string()
+                };
                 svg.rect(left + j as f64 * cell, top + i as f64 * cell, cell, cell, &colour, None);
             }
         }
@@ -177,7 +201,14 @@ pub fn null_distribution(test: &NullTest, label: &str) -> String {
         let width = (x.domain.1 - x.domain.0) / counts.len() as f64;
         for (index, &count) in counts.iter().enumerate() {
             let from = x.domain.0 + index as f64 * width;
-            svg.rect(x.at(from), y.at(count as f64), x.at(from + width) - x.at(from), y.at(0.0) - y.at(count as f64), "#9ec3e6", Some("#fff"));
+            svg.rect(
+                x.at(from),
+                y.at(count as f64),
+                x.at(from + width) - x.at(from),
+                y.at(0.0) - y.at(count as f64),
+                "#9ec3e6",
+                Some("#fff"),
+            );
         }
     } else {
         let y = frame.y((0.0, 1.0));
@@ -191,7 +222,13 @@ pub fn null_distribution(test: &NullTest, label: &str) -> String {
     let observed_x = x.at(test.observed);
     svg.line((observed_x, frame.top), (observed_x, frame.top + frame.height), "#c0392b", 2.0);
     let p = test.p_value.map_or(String::new(), |p| format!(", p = {}", format_tick(p)));
-    svg.text((observed_x + 4.0, frame.top + 12.0), &format!("observed {}{p}", format_tick(test.observed)), TICK_FONT, Anchor::Start, 0.0);
+    svg.text(
+        (observed_x + 4.0, frame.top + 12.0),
+        &format!("observed {}{p}", format_tick(test.observed)),
+        TICK_FONT,
+        Anchor::Start,
+        0.0,
+    );
     svg.finish(label)
 }
 
@@ -217,7 +254,14 @@ pub fn histogram(values: &[f64], x_title: &str, marker: Option<(f64, &str)>, lab
     let width = (x.domain.1 - x.domain.0) / counts.len() as f64;
     for (index, &count) in counts.iter().enumerate() {
         let from = x.domain.0 + index as f64 * width;
-        svg.rect(x.at(from), y.at(count as f64), x.at(from + width) - x.at(from), y.at(0.0) - y.at(count as f64), "#9ec3e6", Some("#fff"));
+        svg.rect(
+            x.at(from),
+            y.at(count as f64),
+            x.at(from + width) - x.at(from),
+            y.at(0.0) - y.at(count as f64),
+            "#9ec3e6",
+            Some("#fff"),
+        );
     }
     if let Some((value, text)) = marker {
         svg.line((x.at(value), frame.top), (x.at(value), frame.top + frame.height), "#c0392b", 2.0);
@@ -242,7 +286,8 @@ mod tests {
 
     #[test]
     fn composition_escapes_level_names() {
-        let communities = vec![CommunityView { community: 1, size: 3, group_counts: vec![("<i>x</i>".into(), 3)] }];
+        let communities =
+            vec![CommunityView { community: 1, size: 3, group_counts: vec![("<i>x</i>".into(), 3)] }];
         let svg = composition(&communities, &["<i>x</i>".to_string()], "sizes");
         assert!(svg.contains("&lt;i&gt;x&lt;/i&gt;") && !svg.contains("<i>"));
     }

@@ -34,7 +34,8 @@ const BLUE_RED: [[u8; 3]; 11] = [
 
 /// The Okabe-Ito colour-blind-safe palette (Okabe & Ito 2008, "Color Universal Design"; hex
 /// values from memory), without black, which is kept for text.
-pub const CATEGORICAL: [&str; 7] = ["#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#F0E442"];
+pub const CATEGORICAL: [&str; 7] =
+    ["#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00", "#F0E442"];
 
 /// Grey for the unassigned participants (community 0) and for missing group values.
 pub const UNASSIGNED_GREY: &str = "#9a9a9a";

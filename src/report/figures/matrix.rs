@@ -141,10 +141,23 @@ pub fn region_matrix(
         svg.text((x + 4.0, top + side + 6.0), name, TICK_FONT, Anchor::End, -60.0);
     }
     if runs.is_empty() {
-        svg.text((left + side / 2.0, top + side + 20.0), &format!("{count} regions"), LABEL_FONT, Anchor::Middle, 0.0);
+        svg.text(
+            (left + side / 2.0, top + side + 20.0),
+            &format!("{count} regions"),
+            LABEL_FONT,
+            Anchor::Middle,
+            0.0,
+        );
     }
     svg.rect(left, top, side, side, "none", Some(INK));
-    svg.colour_bar(left + side + 24.0, top + 24.0, (side * 0.6).max(100.0), ColourMap::BlueRed, range, colour_label);
+    svg.colour_bar(
+        left + side + 24.0,
+        top + 24.0,
+        (side * 0.6).max(100.0),
+        ColourMap::BlueRed,
+        range,
+        colour_label,
+    );
     svg.finish(label)
 }
 

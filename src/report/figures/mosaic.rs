@@ -32,6 +32,19 @@ pub struct Grid<'a> {
     pub mask: &'a [bool],
 }
 
+/// How a volume is coloured and labelled.
+#[derive(Debug, Clone, Copy)]
+pub struct Scale<'a> {
+    /// Colour map.
+    pub map: ColourMap,
+    /// Values at the two ends of the map.
+    pub range: (f64, f64),
+    /// Title above the mosaic.
+    pub title: &'a str,
+    /// Label above the colour bar.
+    pub colour_label: &'a str,
+}
+
 /// The three orientations: (name, horizontal axis, vertical axis, fixed axis, coordinate name).
 const ORIENTATIONS: [(&str, usize, usize, usize, &str); 3] =
     [("axial", 0, 1, 2, "z"), ("coronal", 0, 2, 1, "y"), ("sagittal", 1, 2, 0, "x")];
@@ -87,7 +100,14 @@ impl Grid<'_> {
     }
 
     /// One slice as a raster: mask voxels coloured by value, the rest background.
-    fn slice(&self, values: &[f32], orientation: usize, at: usize, map: ColourMap, range: (f64, f64)) -> Raster {
+    fn slice(
+        &self,
+        values: &[f32],
+        orientation: usize,
+        at: usize,
+        map: ColourMap,
+        range: (f64, f64),
+    ) -> Raster {
         let (_, horizontal, vertical, fixed, _) = ORIENTATIONS[orientation];
         let (width, height) = (self.dim[horizontal], self.dim[vertical]);
         let (_, h_up) = self.axis(horizontal);
@@ -121,10 +141,12 @@ impl Grid<'_> {
 
     /// Draws the three rows of slices of `values` at (left, top) with a colour bar on the right;
     /// returns the height used.
-    pub fn draw(&self, svg: &mut Svg, left: f64, top: f64, values: &[f32], map: ColourMap, range: (f64, f64), title: &str, colour_label: &str) -> f64 {
+    pub fn draw(&self, svg: &mut Svg, (left, top): (f64, f64), values: &[f32], scale: &Scale<'_>) -> f64 {
+        let Scale { map, range, title, colour_label } = *scale;
         svg.title((left, top + 13.0), title, Anchor::Start);
         let mut y = top + 22.0;
-        for (orientation, (name, horizontal, vertical, fixed, coordinate)) in ORIENTATIONS.iter().enumerate() {
+        for (orientation, (name, horizontal, vertical, fixed, coordinate)) in ORIENTATIONS.iter().enumerate()
+        {
             let (h_size, _) = self.axis(*horizontal);
             let (v_size, _) = self.axis(*vertical);
             let width = self.dim[*horizontal] as f64 * h_size * UNITS_PER_MM;
@@ -135,7 +157,13 @@ impl Grid<'_> {
                 let raster = self.slice(values, orientation, at, map, range);
                 svg.image(x, y, width, height, &raster);
                 let mm = self.world(*fixed, at);
-                svg.text((x + width / 2.0, y + height + 13.0), &format!("{coordinate} = {} mm", format_tick(mm.round())), TICK_FONT, Anchor::Middle, 0.0);
+                svg.text(
+                    (x + width / 2.0, y + height + 13.0),
+                    &format!("{coordinate} = {} mm", format_tick(mm.round())),
+                    TICK_FONT,
+                    Anchor::Middle,
+                    0.0,
+                );
                 x += width + GAP;
             }
             y += height + LABEL_ROOM;
@@ -155,7 +183,8 @@ mod tests {
     fn slices_span_the_mask_and_coordinates_follow_the_affine() {
         // A 10 x 10 x 10 grid of 2 mm voxels, origin at -10 mm, mask = voxels 2..=8 on every axis.
         let dim = [10, 10, 10];
-        let affine = [[2.0, 0.0, 0.0, -10.0], [0.0, 2.0, 0.0, -10.0], [0.0, 0.0, 2.0, -10.0], [0.0, 0.0, 0.0, 1.0]];
+        let affine =
+            [[2.0, 0.0, 0.0, -10.0], [0.0, 2.0, 0.0, -10.0], [0.0, 0.0, 2.0, -10.0], [0.0, 0.0, 0.0, 1.0]];
         let mut mask = vec![false; 1000];
         for k in 2..=8 {
             for j in 2..=8 {

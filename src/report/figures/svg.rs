@@ -190,7 +190,15 @@ impl Svg {
     }
 
     /// A vertical colour bar at (x, y) of the given size, labelled with its ends and middle.
-    pub fn colour_bar(&mut self, x: f64, y: f64, height: f64, map: ColourMap, range: (f64, f64), label: &str) {
+    pub fn colour_bar(
+        &mut self,
+        x: f64,
+        y: f64,
+        height: f64,
+        map: ColourMap,
+        range: (f64, f64),
+        label: &str,
+    ) {
         let bar = Raster::colour_bar(map, 64);
         let width = 12.0;
         self.image(x, y, width, height, &bar);
@@ -236,11 +244,8 @@ pub fn format_tick(value: f64) -> String {
     } else {
         format!("{value:.3}")
     };
-    let text = if text.contains('.') {
-        text.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        text
-    };
+    let text =
+        if text.contains('.') { text.trim_end_matches('0').trim_end_matches('.').to_string() } else { text };
     if text == "-0" {
         "0".into()
     } else {
@@ -355,7 +360,13 @@ impl Frame {
         svg.line((self.left, self.top), (self.left, bottom), INK, 1.0);
         svg.line((self.left, bottom), (self.left + self.width, bottom), INK, 1.0);
         svg.text((self.left + self.width / 2.0, bottom + 34.0), x_title, LABEL_FONT, Anchor::Middle, 0.0);
-        svg.text((self.left - 44.0, self.top + self.height / 2.0), y_title, LABEL_FONT, Anchor::Middle, -90.0);
+        svg.text(
+            (self.left - 44.0, self.top + self.height / 2.0),
+            y_title,
+            LABEL_FONT,
+            Anchor::Middle,
+            -90.0,
+        );
     }
 }
 
@@ -382,8 +393,10 @@ mod tests {
         for (tick, want) in ticks.iter().zip(expected) {
             assert!((tick - want).abs() < 1e-12, "{ticks:?}");
         }
+        // Raw step 0.297 / 5 = 0.059 rounds up to 0.1 (the next of 1, 2, 5 x 10^k).
         let ticks = nice_ticks(0.013, 0.31, 5);
-        assert!((ticks[0] - 0.05).abs() < 1e-12 && (ticks[ticks.len() - 1] - 0.3).abs() < 1e-12, "{ticks:?}");
+        assert_eq!(ticks.len(), 3, "{ticks:?}");
+        assert!((ticks[0] - 0.1).abs() < 1e-12 && (ticks[2] - 0.3).abs() < 1e-12, "{ticks:?}");
         assert_eq!(format_tick(0.30000000000000004), "0.3");
         assert_eq!(format_tick(-0.0), "0");
         assert_eq!(format_tick(12.0), "12");
