@@ -279,14 +279,14 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     write_json(&output.path().join("summary.json"), &summary)?;
     write_json(&output.path().join("dataset_description.json"), &dataset_description())?;
     // The report reads the files just written, exactly as `strata report` does later.
-    timings_report(log, || crate::report::write_report(output.path()))?;
+    time_report(log, || crate::report::write_report(output.path()))?;
     output.commit()?;
     Ok(summary)
 }
 
 /// Renders the report, with its time in the detailed log (after provenance.json is written, so
 /// the time is not part of `stage_seconds`).
-fn timings_report<T>(log: &Log, work: impl FnOnce() -> T) -> T {
+fn time_report<T>(log: &Log, work: impl FnOnce() -> T) -> T {
     let started = Instant::now();
     let result = work();
     log.detail(&format!("report: {:.2} s", started.elapsed().as_secs_f64()));

@@ -121,13 +121,19 @@ fn demo_reports_load_cleanly_in_chromium() {
     let dir = tempfile::tempdir().unwrap();
     let output = strata(&["demo", "--out", "demo", "--kind", "both", "--quiet"], dir.path());
     assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
-    // Region matrices: similarity, composition, sweep, co-assignment, network profiles, and one
-    // contrast matrix per scope (whole cohort and the communities).
+    // Region matrices: similarity, composition, sweep, co-assignment, network profiles and the
+    // contrast matrices.
     let matrices = check_page(&dir.path().join("demo/results-matrices"), "demo-matrices");
-    assert!(matrices >= 7, "{matrices} figures");
-    // Seed maps: the four participant-level figures and one mosaic per scope.
+    assert_eq!(matrices, 6, "figures of the matrix report");
+    // Seed maps: the four participant-level figures and one mosaic per scope (the whole cohort
+    // and each community the run found).
     let seedmaps = check_page(&dir.path().join("demo/results-seedmaps"), "demo-seedmaps");
-    assert!(seedmaps >= 6, "{seedmaps} figures");
+    let summary: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.path().join("demo/results-seedmaps/summary.json")).unwrap(),
+    )
+    .unwrap();
+    let communities = summary["community_count"].as_u64().unwrap() as usize;
+    assert_eq!(seedmaps, 4 + 1 + communities, "figures of the seed-map report");
 }
 
 #[test]

@@ -32,6 +32,8 @@ pub const TOP_FEATURES: usize = 5;
 const PEAK_SEPARATION_MM: f64 = 12.0;
 /// Quantile of |value| that sets the end of a diverging colour bar (the top 1% saturate).
 const COLOUR_QUANTILE: f64 = 0.99;
+/// Side of one contrast matrix in the grid of contrast matrices (two per row fit the page).
+const CONTRAST_PANEL_SIDE: f64 = 300.0;
 /// Smallest end of the t colour bar, so noise-only maps do not look strong.
 const T_COLOUR_FLOOR: f64 = 3.0;
 
@@ -574,18 +576,38 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
     let range =
         symmetric_range(loaded.iter().flat_map(|(_, v)| off_diagonal(v)), COLOUR_QUANTILE, T_COLOUR_FLOOR);
     let (a, b) = contrast_levels(files);
-    for (map, values) in scope_sorted(loaded) {
-        let scope = scope_words(&map.community);
-        let labelled = networks.as_deref().filter(|n| n.len() == values.nrows());
+    let loaded = scope_sorted(loaded);
+    if !loaded.is_empty() {
+        let labelled_all =
+            loaded.iter().all(|(_, values)| networks.as_ref().is_some_and(|n| n.len() == values.nrows()));
+        let mut grid = Svg::new(0.0, 0.0);
+        let (mut width, mut height) = (0.0f64, 0.0f64);
+        for (index, (map, values)) in loaded.iter().enumerate() {
+            let labelled = networks.as_deref().filter(|n| n.len() == values.nrows());
+            let panel = region_matrix(values, labelled, range, "t", CONTRAST_PANEL_SIDE);
+            let (x, y) = ((index % 2) as f64 * panel.width(), (index / 2) as f64 * (panel.height() + 26.0));
+            let comparison = files.summary.comparisons.iter().find(|c| c.scope == map.community);
+            let counts =
+                comparison.map_or(String::new(), |c| format!(" ({a} n={}, {b} n={})", c.count_a, c.count_b));
+            grid.title(
+                (x + 90.0, y + 16.0),
+                &format!("{}{counts}", scope_words(&map.community)),
+                super::figures::svg::Anchor::Start,
+            );
+            width = width.max(x + panel.width());
+            height = height.max(y + 26.0 + panel.height());
+            grid.nest(x, y + 26.0, panel);
+        }
+        grid.set_size(width, height);
         figures.push(figure(
-            &format!("figure-contrast-{}", html_id(&map.community)),
-            &format!("Contrast t matrix, {scope}"),
+            "figure-contrasts",
+            "Contrast t matrices",
             format!(
-                "Welch t of {a} minus {b} for every pair of regions within the {scope}{}; red: higher in {a}, blue: higher in {b}. Colours saturate at |t| = {} (shared by all contrast matrices); uncorrected values, see comparisons.tsv and the q maps for the false-discovery control.",
-                if labelled.is_some() { ", regions ordered by network with network borders" } else { ", regions in atlas order" },
+                "Welch t of {a} minus {b} for every pair of regions, within the whole cohort and within each community{}; red: higher in {a}, blue: higher in {b}. Colours saturate at |t| = {} in every panel; uncorrected values (comparisons.tsv and the q maps give the false-discovery control).",
+                if labelled_all { ", regions ordered by network with network borders" } else { ", regions in atlas order" },
                 format_tick(range.1)
             ),
-            region_matrix(&values, labelled, range, "t", &format!("contrast t matrix, {scope}"), 380.0),
+            grid.finish("contrast t matrices"),
         ));
     }
     (figures, notes)

@@ -104,15 +104,15 @@ pub fn network_order(networks: &[String]) -> (Vec<usize>, Vec<(String, usize, us
 }
 
 /// A region-by-region matrix ordered by network, with network borders and labels (or by table
-/// order with no labels when `networks` is `None`), on a diverging scale, with a colour bar.
+/// order with no labels when `networks` is `None`), on a diverging scale, with a colour bar;
+/// the picture is left open so it can be finished or nested in a grid.
 pub fn region_matrix(
     values: &Array2<f32>,
     networks: Option<&[String]>,
     range: (f64, f64),
     colour_label: &str,
-    label: &str,
     side: f64,
-) -> String {
+) -> Svg {
     let count = values.nrows();
     let (order, runs) = match networks {
         Some(networks) if networks.len() == count => network_order(networks),
@@ -158,7 +158,7 @@ pub fn region_matrix(
         range,
         colour_label,
     );
-    svg.finish(label)
+    svg
 }
 
 #[cfg(test)]

@@ -83,6 +83,12 @@ impl Svg {
         self.height = height;
     }
 
+    /// Sets the size once the content is drawn.
+    pub fn set_size(&mut self, width: f64, height: f64) {
+        self.width = width;
+        self.height = height;
+    }
+
     /// A filled rectangle; `stroke` draws its outline too.
     pub fn rect(&mut self, x: f64, y: f64, width: f64, height: f64, fill: &str, stroke: Option<&str>) {
         let stroke = stroke.map_or(String::new(), |colour| format!(r#" stroke="{colour}" stroke-width="1""#));
@@ -215,6 +221,24 @@ impl Svg {
     /// Raw SVG markup made by this module's callers (never user text).
     pub fn raw(&mut self, markup: &str) {
         self.body.push_str(markup);
+    }
+
+    /// Places another picture inside this one with its top-left corner at (x, y).
+    pub fn nest(&mut self, x: f64, y: f64, inner: Svg) {
+        let _ = write!(
+            self.body,
+            r#"<svg x="{}" y="{}" width="{w}" height="{h}" viewBox="0 0 {w} {h}">{}</svg>"#,
+            num(x),
+            num(y),
+            inner.body,
+            w = num(inner.width),
+            h = num(inner.height)
+        );
+    }
+
+    /// Height in user units.
+    pub fn height(&self) -> f64 {
+        self.height
     }
 
     /// The finished `<svg>` element, scaled to the page width by CSS.
