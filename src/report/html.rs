@@ -203,10 +203,29 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
                 input.get("participant_id").and_then(Value::as_str).is_some_and(|id| !id.is_empty())
             })
             .count();
-        let other = inputs.len().saturating_sub(per_participant + 1);
+        let parameter = |key: &str| {
+            provenance.get("parameters").and_then(|p| p.get(key)).and_then(Value::as_str).map(str::to_string)
+        };
+        let mut parts = vec![format!("participants table {table}")];
+        if per_participant > 0 {
+            parts.push(format!("{per_participant} per-participant input files"));
+        }
+        let named: Vec<String> =
+            ["similarity", "mask", "atlas"].iter().filter_map(|key| parameter(key)).collect();
+        let stacked = inputs.len().saturating_sub(per_participant + 1 + named.len());
+        if stacked > 0 {
+            parts.push(format!("{stacked} stacked input array(s)"));
+        }
+        for (key, words) in
+            [("similarity", "precomputed similarity"), ("mask", "mask"), ("atlas", "atlas table")]
+        {
+            if let Some(path) = parameter(key) {
+                parts.push(format!("{words} {path}"));
+            }
+        }
         paragraphs.push(format!(
-            "Inputs: participants table {table}; {per_participant} per-participant input file(s){}; SHA-256 digests of every input are listed under Parameters.",
-            if other > 0 { format!(" and {other} other file(s) (mask, atlas or a stacked array)") } else { String::new() }
+            "Inputs: {}; the SHA-256 of every input is listed under Parameters and provenance.",
+            parts.join("; ")
         ));
     }
     let sizes: Vec<String> = summary
@@ -286,7 +305,7 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
                     format!("community {}", c.scope)
                 };
                 format!(
-                    "{scope} (n={} vs {}): {} feature(s) with q < {alpha}, peak t = {} at {}",
+                    "{scope} ({} {a} vs {} {b}): {} feature(s) with q < {alpha}, peak t = {} at {}",
                     c.count_a,
                     c.count_b,
                     c.significant_features,
@@ -364,7 +383,7 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
                 if test.values.len() >= 2 {
                     "Distribution of the test statistic over the null draws"
                 } else {
-                    "Quantiles of the test statistic"
+                    "Quantiles of the test statistic (cumulative probability against value)"
                 },
                 test.statistic.clone().unwrap_or_else(|| "test statistic".into()),
                 test.p_value.map_or(String::new(), |p| format!("; p = {}", format_number(p)))

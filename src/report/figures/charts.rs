@@ -212,7 +212,7 @@ pub fn null_distribution(test: &NullTest, label: &str) -> String {
         }
     } else {
         let y = frame.y((0.0, 1.0));
-        frame.axes(&mut svg, x, y, &statistic, "probability");
+        frame.axes(&mut svg, x, y, &statistic, "cumulative probability");
         let points: Vec<(f64, f64)> = test.quantiles.iter().map(|(p, v)| (x.at(*v), y.at(*p))).collect();
         svg.polyline(&points, CATEGORICAL[0], 1.5);
         for (p, v) in &test.quantiles {
