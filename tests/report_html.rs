@@ -219,3 +219,33 @@ fn report_needs_a_run_folder() {
     );
     assert!(!dir.path().join("empty/report.html").exists());
 }
+
+#[test]
+fn damaged_run_folders_give_notes_or_clear_errors() {
+    let dir = tempfile::tempdir().unwrap();
+    let inputs = small_cohort(dir.path());
+    let out = run(dir.path(), &inputs, "insomnia,control", "results");
+    // Optional files of the wrong shape: their figures are left out with a note.
+    ndarray_npy::write_npy(out.join("similarity.npy"), &ndarray::Array2::<f32>::zeros((3, 3))).unwrap();
+    let t_map = out.join("maps/comm-all_contrast-insomniaVsControl_t.npy");
+    ndarray_npy::write_npy(&t_map, &ndarray::Array2::<f32>::zeros((2, 3))).unwrap();
+    let output = strata(&["report", "results"], dir.path());
+    assert!(output.status.success(), "{}", stderr(&output));
+    let page = read(&out.join("report.html"));
+    assert!(!page.contains("id=\"figure-similarity\""));
+    assert!(
+        page.contains("similarity.npy: 3x3 matrix for 48 participants; figure left out"),
+        "note on similarity.npy"
+    );
+    assert!(
+        page.contains("comm-all_contrast-insomniaVsControl_t.npy: 2x3 matrix, expected a square region-by-region matrix; left out"),
+        "note on the t map"
+    );
+    // Required files unreadable: exit code 3 and a message naming the file.
+    std::fs::write(out.join("summary.json"), "{").unwrap();
+    let output = strata(&["report", "results"], dir.path());
+    assert_eq!(output.status.code(), Some(3));
+    let message = stderr(&output);
+    assert!(message.contains("results/summary.json: not valid JSON"), "{message}");
+    assert!(!message.contains("panicked"), "{message}");
+}

@@ -474,9 +474,19 @@ fn sweep_figure(sweep: &crate::read::ParticipantsTable, method: &str) -> Option<
     ))
 }
 
+/// A square region-by-region map of the run (`.npy`).
 fn read_matrix_map(map: &MapFile) -> Result<Array2<f32>, String> {
-    ndarray_npy::read_npy::<_, Array2<f32>>(&map.path)
-        .map_err(|error| format!("{}: cannot read ({error})", map.path.display()))
+    let matrix = ndarray_npy::read_npy::<_, Array2<f32>>(&map.path)
+        .map_err(|error| format!("{}: cannot read ({error}); left out", map.path.display()))?;
+    if matrix.nrows() != matrix.ncols() {
+        return Err(format!(
+            "{}: {}x{} matrix, expected a square region-by-region matrix; left out",
+            map.path.display(),
+            matrix.nrows(),
+            matrix.ncols()
+        ));
+    }
+    Ok(matrix)
 }
 
 /// Communities 1..k present in the summary.

@@ -89,8 +89,12 @@ impl Raster {
         raster
     }
 
-    /// The raster as PNG bytes (8-bit RGB, default compression).
+    /// The raster as PNG bytes (8-bit RGB, default compression); an empty raster is written as
+    /// one white pixel, since PNG has no empty images.
     pub fn png(&self) -> Vec<u8> {
+        if self.width == 0 || self.height == 0 {
+            return Raster::filled(1, 1, [255, 255, 255]).png();
+        }
         let mut bytes = Vec::new();
         {
             let mut encoder = png::Encoder::new(&mut bytes, self.width as u32, self.height as u32);
@@ -124,6 +128,12 @@ mod tests {
         assert_eq!(u32::from_be_bytes([bytes[16], bytes[17], bytes[18], bytes[19]]), 3);
         assert_eq!(u32::from_be_bytes([bytes[20], bytes[21], bytes[22], bytes[23]]), 2);
         assert!(raster.data_uri().starts_with("data:image/png;base64,iVBORw0KGgo"));
+    }
+
+    #[test]
+    fn empty_rasters_still_encode() {
+        let bytes = Raster::matrix(&[], 0, ColourMap::Viridis, (0.0, 1.0)).png();
+        assert_eq!(u32::from_be_bytes([bytes[16], bytes[17], bytes[18], bytes[19]]), 1);
     }
 
     #[test]
