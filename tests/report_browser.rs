@@ -121,19 +121,20 @@ fn demo_reports_load_cleanly_in_chromium() {
     let dir = tempfile::tempdir().unwrap();
     let output = strata(&["demo", "--out", "demo", "--kind", "both", "--quiet"], dir.path());
     assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
-    // Region matrices: similarity, composition, sweep, co-assignment, network profiles and the
-    // contrast matrices.
+    // Region matrices: similarity, composition, sweep, co-assignment, network profiles,
+    // covariates (age, fd_mean, followup_isi of the demo table) and the contrast matrices.
     let matrices = check_page(&dir.path().join("demo/results-matrices"), "demo-matrices");
-    assert_eq!(matrices, 6, "figures of the matrix report");
-    // Seed maps: the four participant-level figures and one mosaic per scope (the whole cohort
-    // and each community the run found).
+    assert_eq!(matrices, 7, "figures of the matrix report");
+    // Seed maps: the five participant-level figures (similarity, composition, sweep,
+    // co-assignment, covariates) and one mosaic per scope (the whole cohort and each community
+    // the run found).
     let seedmaps = check_page(&dir.path().join("demo/results-seedmaps"), "demo-seedmaps");
     let summary: serde_json::Value = serde_json::from_str(
         &std::fs::read_to_string(dir.path().join("demo/results-seedmaps/summary.json")).unwrap(),
     )
     .unwrap();
     let communities = summary["community_count"].as_u64().unwrap() as usize;
-    assert_eq!(seedmaps, 4 + 1 + communities, "figures of the seed-map report");
+    assert_eq!(seedmaps, 5 + 1 + communities, "figures of the seed-map report");
 }
 
 #[test]

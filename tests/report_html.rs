@@ -73,6 +73,7 @@ fn every_run_writes_a_self_contained_report_that_report_renders_again() {
         "id=\"figure-sweep\"",
         "id=\"figure-coassignment\"",
         "id=\"figure-profiles\"",
+        "id=\"figure-covariates\"",
         "id=\"figure-contrasts\"",
         "id=\"table-communities\"",
         "id=\"table-comparisons\"",

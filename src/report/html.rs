@@ -32,6 +32,11 @@ pub const TOP_FEATURES: usize = 5;
 const PEAK_SEPARATION_MM: f64 = 12.0;
 /// Quantile of |value| that sets the end of a diverging colour bar (the top 1% saturate).
 const COLOUR_QUANTILE: f64 = 0.99;
+/// Columns with at most this many distinct numbers are codes of categories (site, sex as 0/1),
+/// not covariates to draw as distributions (layout choice).
+const MIN_COVARIATE_LEVELS: usize = 5;
+/// Most covariate panels drawn (two rows of three).
+const MAX_COVARIATE_PANELS: usize = 6;
 /// Side of one contrast matrix in the grid of contrast matrices (two per row fit the page).
 const CONTRAST_PANEL_SIDE: f64 = 300.0;
 /// Smallest end of the t colour bar, so noise-only maps do not look strong.
@@ -374,6 +379,19 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
             participant_matrix(coassignment, &membership, &order, ColourMap::Viridis, (0.0, 1.0), "fraction", "consensus co-assignment matrix"),
         ));
     }
+    // Figures of the input kind: profiles come here, the maps and matrices last.
+    let (mut kind_figures, kind_notes) = match summary.input_kind.as_str() {
+        "region_matrices" => matrix_figures(files),
+        "seed_maps" => mosaic_figures(files),
+        _ => (Vec::new(), Vec::new()),
+    };
+    notes.extend(kind_notes);
+    if let Some(position) = kind_figures.iter().position(|figure| figure.id == "figure-profiles") {
+        figures.push(kind_figures.remove(position));
+    }
+    if let Some(figure) = covariate_figure(files, &membership) {
+        figures.push(figure);
+    }
     if let Some(test) = &files.optional.null_test {
         figures.push(figure(
             "figure-null",
@@ -407,20 +425,64 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
             ));
         }
     }
-    match summary.input_kind.as_str() {
-        "region_matrices" => {
-            let (more, more_notes) = matrix_figures(files);
-            figures.extend(more);
-            notes.extend(more_notes);
-        }
-        "seed_maps" => {
-            let (more, more_notes) = mosaic_figures(files);
-            figures.extend(more);
-            notes.extend(more_notes);
-        }
-        _ => {}
-    }
+    figures.extend(kind_figures);
     (figures, notes)
+}
+
+/// Numeric columns of the participants table by community: every column but the id, the
+/// group column, `community` and `consistency` whose present values all parse as numbers, with
+/// more than [`MIN_COVARIATE_LEVELS`] distinct values (fewer is a coding of categories, such as
+/// site), at most [`MAX_COVARIATE_PANELS`] of them in table order.
+fn covariate_figure(files: &RunFiles, membership: &[usize]) -> Option<Figure> {
+    let table = &files.participants;
+    let mut communities: Vec<usize> = membership.iter().copied().filter(|&c| c > 0).collect();
+    communities.sort_unstable();
+    communities.dedup();
+    if membership.contains(&0) {
+        communities.push(0);
+    }
+    let mut panels = Vec::new();
+    for (index, column) in table.columns().iter().enumerate().skip(1) {
+        if [files.summary.group_column.as_str(), "community", "consistency"].contains(&column.as_str()) {
+            continue;
+        }
+        let cells: Vec<&str> = table.rows().iter().map(|row| row[index].trim()).collect();
+        let present: Vec<&str> =
+            cells.iter().copied().filter(|cell| !cell.is_empty() && *cell != "n/a").collect();
+        let parsed: Vec<f64> =
+            present.iter().filter_map(|cell| cell.parse::<f64>().ok()).filter(|v| v.is_finite()).collect();
+        if present.is_empty() || parsed.len() != present.len() {
+            continue;
+        }
+        let mut distinct = parsed.clone();
+        distinct.sort_by(f64::total_cmp);
+        distinct.dedup();
+        if distinct.len() <= MIN_COVARIATE_LEVELS {
+            continue;
+        }
+        let values: Vec<f64> = cells.iter().map(|cell| cell.parse().unwrap_or(f64::NAN)).collect();
+        let groups = communities
+            .iter()
+            .map(|&community| {
+                let within =
+                    values.iter().zip(membership).filter(|(_, &m)| m == community).map(|(v, _)| *v).collect();
+                (community, within)
+            })
+            .collect();
+        panels.push((column.clone(), groups));
+        if panels.len() == MAX_COVARIATE_PANELS {
+            break;
+        }
+    }
+    if panels.is_empty() {
+        return None;
+    }
+    Some(figure(
+        "figure-covariates",
+        "Covariates by community",
+        "Numeric columns of the participants table in each community (community 0: unassigned): boxes span the quartiles with the median as a thick line, whiskers reach the smallest and largest values, dots are participants; missing values are left out. Descriptive only: the covariate tests, when run, are in their own table.".into(),
+        charts::covariate_boxes(&panels, "covariates by community"),
+    ))
 }
 
 fn off_diagonal(matrix: &Array2<f32>) -> Vec<f64> {

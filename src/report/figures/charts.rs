@@ -275,6 +275,75 @@ pub fn figure(id: &str, title: &str, caption: String, svg: String) -> Figure {
     Figure { id: id.to_string(), title: title.to_string(), caption, svg }
 }
 
+/// One covariate panel: the column name and the values of each community (community, values).
+pub type CovariatePanel = (String, Vec<(usize, Vec<f64>)>);
+
+/// Per-community box plots of numeric columns (box: quartiles, line: median, whiskers: minimum
+/// and maximum, dots: participants), three panels per row.
+pub fn covariate_boxes(panels: &[CovariatePanel], label: &str) -> String {
+    let (panel_width, panel_height) = (250.0, 170.0);
+    let (column_step, row_step) = (panel_width + 80.0, panel_height + 80.0);
+    let per_row = 3usize;
+    let rows = panels.len().div_ceil(per_row).max(1);
+    let mut svg =
+        Svg::new(per_row.min(panels.len()).max(1) as f64 * column_step + 20.0, rows as f64 * row_step + 10.0);
+    for (index, (name, groups)) in panels.iter().enumerate() {
+        let frame = Frame {
+            left: 60.0 + (index % per_row) as f64 * column_step,
+            top: 30.0 + (index / per_row) as f64 * row_step,
+            width: panel_width,
+            height: panel_height,
+        };
+        let y = frame.y(padded_domain(groups.iter().flat_map(|(_, values)| values.iter().copied()), false));
+        let x = frame.x((0.0, groups.len() as f64));
+        svg.title((frame.left, frame.top - 12.0), name, Anchor::Start);
+        for tick in nice_ticks(y.domain.0, y.domain.1, 4) {
+            let position = y.at(tick);
+            svg.line((frame.left, position), (frame.left + frame.width, position), super::svg::GRID, 1.0);
+            svg.line((frame.left - 4.0, position), (frame.left, position), INK, 1.0);
+            svg.text((frame.left - 7.0, position + 4.0), &format_tick(tick), TICK_FONT, Anchor::End, 0.0);
+        }
+        svg.line((frame.left, frame.top), (frame.left, frame.top + frame.height), INK, 1.0);
+        svg.line(
+            (frame.left, frame.top + frame.height),
+            (frame.left + frame.width, frame.top + frame.height),
+            INK,
+            1.0,
+        );
+        let slot = x.at(1.0) - x.at(0.0);
+        for (position, (community, values)) in groups.iter().enumerate() {
+            let centre = x.at(position as f64 + 0.5);
+            let colour = community_colour(*community);
+            let name = if *community == 0 { "0".to_string() } else { community.to_string() };
+            svg.text((centre, frame.top + frame.height + 16.0), &name, TICK_FONT, Anchor::Middle, 0.0);
+            let finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
+            if finite.is_empty() {
+                continue;
+            }
+            let [low, q1, median, q3, high] =
+                [0.0, 0.25, 0.5, 0.75, 1.0].map(|fraction| super::quantile(finite.iter().copied(), fraction));
+            let half = (slot * 0.28).min(26.0);
+            svg.line((centre, y.at(low)), (centre, y.at(q1)), INK, 1.0);
+            svg.line((centre, y.at(q3)), (centre, y.at(high)), INK, 1.0);
+            svg.rect(centre - half, y.at(q3), 2.0 * half, y.at(q1) - y.at(q3), "#f4f4f4", Some(INK));
+            // Participants as dots spread across the box by their order (deterministic jitter).
+            for (at, value) in finite.iter().enumerate() {
+                let spread = ((at * 37) % 17) as f64 / 16.0 - 0.5;
+                svg.circle((centre + spread * 1.4 * half, y.at(*value)), 1.8, colour, true);
+            }
+            svg.line((centre - half, y.at(median)), (centre + half, y.at(median)), INK, 2.0);
+        }
+        svg.text(
+            (frame.left + frame.width / 2.0, frame.top + frame.height + 34.0),
+            "community",
+            TICK_FONT,
+            Anchor::Middle,
+            0.0,
+        );
+    }
+    svg.finish(label)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
