@@ -18,7 +18,7 @@ use super::figures::charts::{self, figure, SweepPanel};
 use super::figures::colour::ColourMap;
 use super::figures::matrix::{community_order, network_order, participant_matrix, region_matrix};
 use super::figures::mosaic::{Grid, Scale};
-use super::figures::svg::{format_tick, Svg};
+use super::figures::svg::{format_tick, Anchor, Svg, TICK_FONT};
 use super::figures::{quantile, symmetric_range, Figure};
 use super::run_files::{MapFile, RunFiles, REPORT_FILE};
 use super::tables::format_number;
@@ -37,6 +37,11 @@ const COLOUR_QUANTILE: f64 = 0.99;
 const MIN_COVARIATE_LEVELS: usize = 5;
 /// Most covariate panels drawn (two rows of three).
 const MAX_COVARIATE_PANELS: usize = 6;
+/// Height of the two title lines above each contrast matrix.
+const TITLE_ROOM: f64 = 40.0;
+/// Longest group label in a figure title before it is cut with an ellipsis (layout choice: two
+/// labels and their counts fit above a contrast matrix).
+const MAX_TITLE_LABEL: usize = 24;
 /// Side of one contrast matrix in the grid of contrast matrices (two per row fit the page).
 const CONTRAST_PANEL_SIDE: f64 = 300.0;
 /// Smallest end of the t colour bar, so noise-only maps do not look strong.
@@ -676,18 +681,18 @@ fn matrix_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
         for (index, (map, values)) in loaded.iter().enumerate() {
             let labelled = networks.as_deref().filter(|n| n.len() == values.nrows());
             let panel = region_matrix(values, labelled, range, "t", CONTRAST_PANEL_SIDE);
-            let (x, y) = ((index % 2) as f64 * panel.width(), (index / 2) as f64 * (panel.height() + 26.0));
-            let comparison = files.summary.comparisons.iter().find(|c| c.scope == map.community);
-            let counts =
-                comparison.map_or(String::new(), |c| format!(" ({a} n={}, {b} n={})", c.count_a, c.count_b));
-            grid.title(
-                (x + 90.0, y + 16.0),
-                &format!("{}{counts}", scope_words(&map.community)),
-                super::figures::svg::Anchor::Start,
-            );
+            let (x, y) =
+                ((index % 2) as f64 * panel.width(), (index / 2) as f64 * (panel.height() + TITLE_ROOM));
+            // Two title lines over the matrix (the matrix starts after its label column).
+            let matrix_left = x + panel.width() - CONTRAST_PANEL_SIDE - 100.0;
+            grid.title((matrix_left, y + 14.0), &scope_words(&map.community), Anchor::Start);
+            if let Some(c) = files.summary.comparisons.iter().find(|c| c.scope == map.community) {
+                let counts = format!("{} n={}, {} n={}", shorten(&a), c.count_a, shorten(&b), c.count_b);
+                grid.text((matrix_left, y + 30.0), &counts, TICK_FONT, Anchor::Start, 0.0);
+            }
             width = width.max(x + panel.width());
-            height = height.max(y + 26.0 + panel.height());
-            grid.nest(x, y + 26.0, panel);
+            height = height.max(y + TITLE_ROOM + panel.height());
+            grid.nest(x, y + TITLE_ROOM, panel);
         }
         grid.set_size(width, height);
         figures.push(figure(
@@ -714,6 +719,15 @@ fn scope_sorted<T>(mut items: Vec<(&MapFile, T)>) -> Vec<(&MapFile, T)> {
         }
     });
     items
+}
+
+/// A label cut to [`MAX_TITLE_LABEL`] characters with an ellipsis.
+fn shorten(label: &str) -> String {
+    if label.chars().count() <= MAX_TITLE_LABEL {
+        label.to_string()
+    } else {
+        label.chars().take(MAX_TITLE_LABEL - 1).chain(std::iter::once('…')).collect()
+    }
 }
 
 fn scope_words(community: &str) -> String {
@@ -1179,6 +1193,14 @@ mod tests {
         let html = html_table(&["<b>h</b>".into()], &[vec!["<script>alert(1)</script>".into()]]);
         assert!(html.contains("&lt;script&gt;alert(1)&lt;/script&gt;"));
         assert!(!html.contains("<script>") && !html.contains("<b>"));
+    }
+
+    #[test]
+    fn long_labels_are_cut_with_an_ellipsis() {
+        assert_eq!(shorten("control"), "control");
+        let cut = shorten(&"x".repeat(40));
+        assert_eq!(cut.chars().count(), MAX_TITLE_LABEL);
+        assert!(cut.ends_with('…'));
     }
 
     #[test]
