@@ -201,4 +201,41 @@ mod tests {
         let raster = grid.slice(&values, 0, 5, ColourMap::BlueRed, (-1.0, 1.0));
         assert_eq!((raster.width(), raster.height()), (10, 10));
     }
+
+    #[test]
+    fn left_and_anterior_land_on_the_same_side_whatever_the_storage_order() {
+        // NIfTI-1 (nifti1.h, "sform"/"qform" comments): world coordinates are RAS+, x increasing
+        // to the participant's right, y anterior, z superior. A voxel at x = -8 mm (left),
+        // y = +8 mm (anterior) must show in the left column and top row of an axial slice, for a
+        // grid stored left-to-right (positive x step) and one stored right-to-left (negative).
+        for x_step in [2.0, -2.0] {
+            let x_origin = if x_step > 0.0 { -10.0 } else { 10.0 };
+            let affine = [
+                [x_step, 0.0, 0.0, x_origin],
+                [0.0, 2.0, 0.0, -10.0],
+                [0.0, 0.0, 2.0, -10.0],
+                [0.0, 0.0, 0.0, 1.0],
+            ];
+            let dim = [11, 11, 11];
+            let mask = vec![true; 11 * 11 * 11];
+            let grid = Grid { dim, affine: &affine, mask: &mask };
+            let i = ((-8.0 - x_origin) / x_step) as usize;
+            let j = ((8.0 + 10.0) / 2.0) as usize;
+            let mut values = vec![0.0f32; 11 * 11 * 11];
+            values[grid.index([i, j, 5])] = 1.0;
+            let raster = grid.slice(&values, 0, 5, ColourMap::BlueRed, (-1.0, 1.0));
+            let red = ColourMap::BlueRed.at(1.0);
+            let mut found = Vec::new();
+            for row in 0..raster.height() {
+                for column in 0..raster.width() {
+                    if raster.pixel(column, row) == red {
+                        found.push((column, row));
+                    }
+                }
+            }
+            // x = -8 mm is the second column from the left (-10 mm is the first); y = +8 mm is
+            // the second row from the top (+10 mm is the first).
+            assert_eq!(found, vec![(1, 1)], "x step {x_step}");
+        }
+    }
 }

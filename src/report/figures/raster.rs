@@ -45,13 +45,13 @@ impl Raster {
         }
     }
 
-    /// Copies `other` into this raster with its top-left corner at (column, row).
-    pub fn paste(&mut self, other: &Raster, column: usize, row: usize) {
-        for y in 0..other.height {
-            for x in 0..other.width {
-                let at = 3 * (y * other.width + x);
-                self.set(column + x, row + y, [other.pixels[at], other.pixels[at + 1], other.pixels[at + 2]]);
-            }
+    /// The colour of one pixel (black outside the raster).
+    pub fn pixel(&self, column: usize, row: usize) -> [u8; 3] {
+        if column < self.width && row < self.height {
+            let at = 3 * (row * self.width + column);
+            [self.pixels[at], self.pixels[at + 1], self.pixels[at + 2]]
+        } else {
+            [0, 0, 0]
         }
     }
 
