@@ -33,6 +33,9 @@ pub enum Error {
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
+    /// A run folder could not be read to render its report.
+    #[error(transparent)]
+    Report(#[from] crate::report::ReportError),
     /// The demo cohort could not be generated.
     #[error(transparent)]
     Demo(#[from] crate::demo::DemoError),
@@ -87,6 +90,7 @@ impl Error {
             Error::Assign(_) => exit_code::INPUT,
             Error::Write(_) => exit_code::OUTPUT,
             Error::Demo(_) => exit_code::OUTPUT,
+            Error::Report(_) => exit_code::INPUT,
         }
     }
 }

@@ -336,6 +336,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     write_json(&output.path().join("provenance.json"), &provenance)?;
     write_json(&output.path().join("summary.json"), &summary)?;
     write_json(&output.path().join("dataset_description.json"), &dataset_description())?;
+    // The report reads the files just written, exactly as `strata report` does later.
+    time_report(log, || crate::report::write_report(output.path()))?;
     output.commit()?;
     Ok(summary)
 }
@@ -511,6 +513,15 @@ fn write_validation_tables(
 /// The command-line spelling of a flag value.
 fn value_name(value: &impl clap::ValueEnum) -> String {
     value.to_possible_value().map_or_else(String::new, |value| value.get_name().to_string())
+}
+
+/// Renders the report, with its time in the detailed log (after provenance.json is written, so
+/// the time is not part of `stage_seconds`).
+fn time_report<T>(log: &Log, work: impl FnOnce() -> T) -> T {
+    let started = Instant::now();
+    let result = work();
+    log.detail(&format!("report: {:.2} s", started.elapsed().as_secs_f64()));
+    result
 }
 
 fn collect_community_warnings(

@@ -69,6 +69,9 @@ pub enum Command {
     /// Print strata's manual page (roff) to standard output, or write one page per subcommand
     /// into a folder (`man ./strata.1` shows it).
     Manpage(ManpageArgs),
+    /// Render report.html again from a finished run folder's files, without recomputing.
+    #[command(after_help = REPORT_EXAMPLE)]
+    Report(ReportArgs),
 }
 
 const POWER_EXAMPLE: &str = "\
@@ -232,6 +235,23 @@ pub struct ManpageArgs {
     /// printing strata.1.
     #[arg(long, value_name = "DIR")]
     pub out_dir: Option<PathBuf>,
+}
+
+const REPORT_EXAMPLE: &str = "\
+Reads summary.json, participants.tsv, provenance.json, similarity.npy, coassignment.npy,
+sweep.tsv, comparisons.tsv and maps/ (and, when present, composition.tsv, covariates.tsv,
+outcome.tsv and stability.tsv) from RUN_DIR and writes RUN_DIR/report.html, the page
+`strata run` writes at the end of a run.
+
+Example:
+  strata report results/";
+
+/// Flags of `strata report`.
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    /// A run folder written by `strata run` (its --out).
+    #[arg(value_name = "RUN_DIR")]
+    pub run_dir: PathBuf,
 }
 
 const PARTITION_EXAMPLE: &str = "\

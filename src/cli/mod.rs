@@ -157,6 +157,11 @@ pub fn run_parsed(parsed: Parsed) -> Result<(), Error> {
             print!("{}", report.text());
             Ok(())
         }
+        Command::Report(report) => {
+            let path = crate::report::write_report(&report.run_dir)?;
+            println!("{}", path.display());
+            Ok(())
+        }
         Command::Demo(demo) => {
             install_threads(demo.threads)?;
             let text = crate::pipeline::demo(&demo.into_options()?, &log)?;

@@ -246,6 +246,8 @@ pub struct NullTestSummary {
     pub null_quantiles: std::collections::BTreeMap<String, f64>,
     /// Mean of the null values.
     pub null_mean: f64,
+    /// The statistic of every null cohort, in draw order (also in null_distribution.tsv).
+    pub null_values: Vec<f64>,
     /// Observed consensus strength (the method's structure of the consensus partition).
     pub consensus_observed: f64,
     /// Its Monte Carlo p-value.

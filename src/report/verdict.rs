@@ -23,6 +23,7 @@ pub fn null_summary(null: &NullResult) -> NullTestSummary {
         p_value: null.structure.p_value,
         null_quantiles: quantiles(&null.structure),
         null_mean: null.structure.null_mean,
+        null_values: null.null.iter().map(|draw| draw.structure).collect(),
         consensus_observed: null.consensus.observed,
         consensus_p_value: null.consensus.p_value,
         consensus_null_quantiles: quantiles(&null.consensus),
