@@ -44,7 +44,13 @@ fn main() {
                 motion_effect: if gaussian { 0.0 } else { Scenario::default().motion_effect },
                 ..Scenario::default()
             };
-            let scenario = if separation == 0.0 { base.homogeneous() } else { base };
+            // One population: no subgroups and no diagnosis difference either (a diagnosis effect
+            // makes the cohort a mixture of two populations, which the test should detect).
+            let scenario = if separation == 0.0 {
+                Scenario { diagnosis_effect: 0.0, ..base.homogeneous() }
+            } else {
+                base
+            };
             let (features, truth) = strata::demo::matrix_features(&scenario);
             let similarity = pearson(&features);
             let options = CommunityOptions { seed: 77 + cohort as u64, ..CommunityOptions::default() };

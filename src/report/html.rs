@@ -279,20 +279,33 @@ pub fn summary_paragraphs(files: &RunFiles) -> Vec<String> {
             }
             None => "",
         };
-        paragraphs.push(format!(
-            "Null test{}: observed {}{}{verdict}.",
-            test.statistic.as_ref().map_or(String::new(), |s| format!(" ({s})")),
-            format_tick(test.observed),
-            test.p_value.map_or(String::new(), |p| format!(", p = {}", format_number(p)))
-        ));
+        paragraphs.push(match &test.sentence {
+            Some(sentence) => sentence.clone(),
+            None => format!(
+                "Null test{}: observed {}{}{verdict}.",
+                test.statistic.as_ref().map_or(String::new(), |s| format!(" ({s})")),
+                format_tick(test.observed),
+                test.p_value.map_or(String::new(), |p| format!(", p = {}", format_number(p)))
+            ),
+        });
     }
     if let Some(stability) = &files.optional.stability {
         let details: Vec<String> =
             stability.other.iter().map(|(key, value)| format!("{key} {value}")).collect();
+        let per_community: Vec<String> = stability
+            .communities
+            .iter()
+            .map(|(community, value)| format!("{community}: {value:.2}"))
+            .collect();
         paragraphs.push(format!(
-            "Stability: median adjusted Rand index {} between resampled and full partitions{}.",
+            "Stability: median adjusted Rand index {} between resampled and full partitions{}{}.",
             stability.median_ari.map_or("n/a".into(), |ari| format!("{ari:.2}")),
-            if details.is_empty() { String::new() } else { format!(" ({})", details.join(", ")) }
+            if details.is_empty() { String::new() } else { format!(" ({})", details.join(", ")) },
+            if per_community.is_empty() {
+                String::new()
+            } else {
+                format!("; community stability (mean best-match Jaccard) {}", per_community.join(", "))
+            }
         ));
     }
     let (a, b) = (

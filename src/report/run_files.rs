@@ -147,6 +147,8 @@ pub struct NullTest {
     pub values: Vec<f64>,
     /// The verdict (key `subgroups_supported`).
     pub supported: Option<bool>,
+    /// The verdict in one sentence (top-level `summary.json` key `verdict`).
+    pub sentence: Option<String>,
 }
 
 /// Resampling stability of the partition (`summary.json` key `stability`).
@@ -156,6 +158,8 @@ pub struct StabilitySummary {
     pub median_ari: Option<f64>,
     /// The other scalar keys, as text, in file order.
     pub other: Vec<(String, String)>,
+    /// (community, mean best-match Jaccard) from key `communities`, when given.
+    pub communities: Vec<(usize, f64)>,
 }
 
 /// Results of later stages, each present only when its file or key exists.
@@ -449,6 +453,11 @@ pub fn read_null_test(summary: &Value) -> Option<NullTest> {
         quantiles,
         values,
         supported: test.get("subgroups_supported").and_then(Value::as_bool),
+        sentence: summary
+            .get("verdict")
+            .and_then(Value::as_str)
+            .filter(|text| !text.is_empty())
+            .map(str::to_string),
     })
 }
 
@@ -469,7 +478,23 @@ pub fn read_stability(summary: &Value) -> Option<StabilitySummary> {
             Some((key.clone(), text))
         })
         .collect();
-    Some(StabilitySummary { median_ari: object.get("median_ari").and_then(Value::as_f64), other })
+    let communities = object
+        .get("communities")
+        .and_then(Value::as_array)
+        .map(|items| {
+            items
+                .iter()
+                .filter_map(|item| {
+                    Some((item.get("community")?.as_u64()? as usize, item.get("stability")?.as_f64()?))
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    Some(StabilitySummary {
+        median_ari: object.get("median_ari").and_then(Value::as_f64),
+        other,
+        communities,
+    })
 }
 
 /// The atlas of the run (provenance `parameters.atlas`), when its table can still be read.
