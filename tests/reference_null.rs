@@ -149,11 +149,14 @@ fn rejects(scenario: &Scenario, cohort: u64, draws: usize) -> bool {
 
 #[test]
 fn homogeneous_cohorts_are_rejected_at_about_the_nominal_rate() {
-    // One population (strata's generator, no subgroups). Under the null every p is at least
+    // One population (strata's generator, no subgroups, no diagnosis effect). Under the null every p is at least
     // uniform, so rejections at 0.05 follow at most Binomial(30, 0.05): mean 1.5, and
     // P(X >= 6) = 0.0033 (scipy.stats.binom(30, 0.05).sf(5) = 0.00327), so 6 or more
     // rejections would show an anti-conservative test.
-    let scenario = Scenario { participant_count: 60, region_count: 40, ..Scenario::default() }.homogeneous();
+    // No diagnosis difference either: a diagnosis effect makes two populations.
+    let scenario =
+        Scenario { participant_count: 60, region_count: 40, diagnosis_effect: 0.0, ..Scenario::default() }
+            .homogeneous();
     let rejected = (0..30).filter(|&cohort| rejects(&scenario, cohort, 19)).count();
     assert!(rejected <= 5, "{rejected} of 30 homogeneous cohorts rejected");
 }
