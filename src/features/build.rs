@@ -9,7 +9,9 @@ use serde::Serialize;
 use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
 use crate::read::matrix::{read_matrix, read_stack};
-use crate::read::nifti::{affines_match, format_affine, read_raw, read_volume, RawVolume, Volume};
+use crate::read::nifti::{
+    affines_match, format_affine, read_raw, read_raw_stack, read_volume, RawVolume, Volume, STACK_PARTICIPANT,
+};
 use crate::read::{Cohort, InputKind};
 
 /// Off-diagonal entries (i, j) and (j, i) of a matrix are taken as equal within this relative
@@ -156,7 +158,29 @@ fn check_grid_raw(
 
 fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, FeatureError> {
     let first_path = &cohort.sources[0].path;
-    let first = read_volume(first_path, &cohort.participant_ids[0])?;
+    // A merged 4D file is read once; each participant's volume is decoded from it on demand.
+    let stack = match cohort.sources[0].stack_index {
+        Some(_) => {
+            let stack = read_raw_stack(first_path)?;
+            if stack.frames != cohort.participant_ids.len() {
+                return Err(FeatureError::BadValue {
+                    path: first_path.clone(),
+                    participant: STACK_PARTICIPANT.into(),
+                    problem: format!(
+                        "{} volumes along the 4th dimension for {} participants; a merged 4D NIfTI holds one volume per participants-table row",
+                        stack.frames,
+                        cohort.participant_ids.len()
+                    ),
+                });
+            }
+            Some(stack)
+        }
+        None => None,
+    };
+    let first = match &stack {
+        Some(stack) => stack.decode_frame(0),
+        None => read_volume(first_path, &cohort.participant_ids[0])?,
+    };
     let grid_size = first.values.len();
     let given_mask = match &options.mask {
         Some(mask_path) => {
@@ -223,6 +247,10 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
             let mut gathered = Vec::new();
             let stored: &[f32] = if row == 0 {
                 &reference.values
+            } else if let Some(stack) = &stack {
+                gathered.resize(candidates.len(), 0.0f32);
+                stack.gather_frame(row, &candidates, &mut gathered);
+                &gathered
             } else {
                 let raw = read_raw(path, participant)?;
                 check_grid_raw(&raw, reference, path, participant, first_path)?;

@@ -4,7 +4,7 @@ use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
 use super::table::ParticipantsTable;
-use super::{matrix, ReadError};
+use super::{matrix, nifti, ReadError};
 use crate::error::list_ids;
 
 /// How input files are found and matched to participants.
@@ -21,7 +21,7 @@ pub struct InputOptions {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum InputKind {
-    /// 3D NIfTI seed maps, one per participant.
+    /// 3D NIfTI seed maps, one per participant, or one merged 4D file (a volume per participant).
     SeedMaps,
     /// R x R region matrices, one per participant or one stacked N x R x R array.
     RegionMatrices,
@@ -34,7 +34,8 @@ pub enum InputKind {
 pub struct InputSource {
     /// The file.
     pub path: PathBuf,
-    /// For a stacked N x R x R `.npy`, the index along the first axis.
+    /// For a stacked N x R x R `.npy`, the index along the first axis; for a merged 4D NIfTI,
+    /// the volume along the 4th dimension.
     pub stack_index: Option<usize>,
 }
 
@@ -119,12 +120,12 @@ fn expand(patterns: &[String]) -> Result<Vec<PathBuf>, ReadError> {
 ///
 /// Every file must belong to exactly one table participant and every table participant must
 /// have exactly one file; a single `.npy` holding an N x R x R stack is matched to the N table
-/// rows in order.
+/// rows in order, and so is a single NIfTI whose 4th dimension holds one volume per participant.
 ///
 /// # Errors
 /// A pattern matches nothing; files of mixed or unknown kinds; a file with no participant label
 /// or no table row; two files for one participant; table participants without a file; a stack
-/// whose N differs from the table; fewer than two participants.
+/// or merged 4D file whose N differs from the table; fewer than two participants.
 pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Result<Cohort, ReadError> {
     let files = expand(&options.patterns)?;
     let first = files.first().ok_or_else(|| ReadError::Pattern {
@@ -155,15 +156,31 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     }
     let kind = kind.unwrap_or(InputKind::RegionMatrices);
 
-    // One stacked array for the whole cohort.
-    if files.len() == 1 && kind == InputKind::RegionMatrices && matrix::npy_dimensions(first)? == Some(3) {
-        let shape = matrix::npy_shape(first)?;
-        if shape[0] != table.row_count() {
+    // One stacked array (N x R x R .npy) or merged 4D NIfTI for the whole cohort.
+    let stacked = match (files.len(), kind) {
+        (1, InputKind::RegionMatrices) if matrix::npy_dimensions(first)? == Some(3) => Some((
+            matrix::npy_shape(first)?[0],
+            "stack of",
+            "matrices",
+            "a stacked N x R x R array must hold one matrix",
+        )),
+        (1, InputKind::SeedMaps) => match nifti::frame_count(first)? {
+            1 => None,
+            frames => Some((
+                frames,
+                "4D image with",
+                "volumes along the 4th dimension",
+                "a merged 4D NIfTI must hold one 3D volume",
+            )),
+        },
+        _ => None,
+    };
+    if let Some((count, before, after, rule)) = stacked {
+        if count != table.row_count() {
             return Err(ReadError::Format {
                 path: first.clone(),
                 problem: format!(
-                    "stack of {} matrices but {} has {} participants; a stacked N x R x R array must hold one matrix per table row, in table order",
-                    shape[0],
+                    "{before} {count} {after} but {} has {} participants; {rule} per table row, in table order",
                     table.path().display(),
                     table.row_count()
                 ),
@@ -175,9 +192,8 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
                 count: table.row_count(),
             });
         }
-        let sources = (0..shape[0])
-            .map(|index| InputSource { path: first.clone(), stack_index: Some(index) })
-            .collect();
+        let sources =
+            (0..count).map(|index| InputSource { path: first.clone(), stack_index: Some(index) }).collect();
         return Ok(Cohort {
             table: table.clone(),
             participant_ids: table.ids().iter().map(|id| id.to_string()).collect(),
