@@ -14,7 +14,7 @@ use std::time::Instant;
 use ndarray::{Array2, Array3};
 use rayon::prelude::*;
 use strata::demo::{write_participants_tsv, Scenario};
-use strata::features::{build_features, FeatureMatrix, FeatureOptions, ValueScale};
+use strata::features::{build_features, FeatureMatrix, FeatureOptions, ValueScale, ValueTransform};
 use strata::read::{discover_inputs, read_participants, InputOptions};
 use strata::similarity::{pearson, standardise_rows};
 
@@ -86,7 +86,12 @@ fn similarity(dir: &Path) {
     let started = Instant::now();
     let features = build_features(
         &cohort,
-        &FeatureOptions { mask: None, values: ValueScale::Correlation, region_names: None },
+        &FeatureOptions {
+            mask: None,
+            values: ValueScale::Correlation,
+            transform: ValueTransform::None,
+            region_names: None,
+        },
     )
     .unwrap();
     let read_seconds = started.elapsed().as_secs_f64();

@@ -59,6 +59,19 @@ pub enum Values {
     R,
     /// Already Fisher z: used as they are, without range check.
     Z,
+    /// Not correlations (streamline counts, fibre densities, any other measure): used as they
+    /// are, without range check and without Fisher z.
+    Raw,
+}
+
+/// A transform of raw input values (`--values raw`) before features are formed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, clap::ValueEnum)]
+#[serde(rename_all = "snake_case")]
+pub enum Transform {
+    /// Values as they are.
+    None,
+    /// log(1 + x), for counts (x >= 0): compresses a heavy right tail, keeps 0 at 0.
+    Log1p,
 }
 
 /// A validated run configuration.
@@ -85,6 +98,8 @@ pub struct RunConfig {
     pub mask: Option<PathBuf>,
     /// How input values are scaled.
     pub values: Values,
+    /// Transform of raw values (`Values::Raw` only).
+    pub transform: Transform,
     /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions.
     pub atlas: Option<PathBuf>,
     /// How the sweep's graphs are cut from the similarity matrix.
@@ -276,6 +291,7 @@ impl RunConfig {
             force: false,
             mask: None,
             values: Values::R,
+            transform: Transform::None,
             atlas: None,
             graph: GraphRule::Density,
             densities: DEFAULT_DENSITIES.to_vec(),
@@ -300,6 +316,12 @@ impl RunConfig {
             return Err(invalid(
                 "--inputs",
                 "no input given; for example --inputs 'maps/sub-*_seedmap.nii.gz'",
+            ));
+        }
+        if self.transform != Transform::None && self.values != Values::Raw {
+            return Err(invalid(
+                "--transform",
+                "applies to raw values (counts, densities) only; pass --values raw with it, or drop --transform for correlations",
             ));
         }
         if self.trials == 0 {

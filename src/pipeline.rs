@@ -16,7 +16,7 @@ use serde_json::json;
 use crate::communities::{self, CommunityOptions, CommunityResult};
 use crate::config::{ConfigError, RunConfig, Values};
 use crate::error::Error;
-use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale};
+use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale, ValueTransform};
 use crate::maps::{self, MapName, Statistic, WriteError};
 use crate::read::{self, Cohort, InputOptions};
 use crate::report::tables::format_number;
@@ -184,6 +184,11 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                     values: match config.values {
                         Values::R => ValueScale::Correlation,
                         Values::Z => ValueScale::FisherZ,
+                        Values::Raw => ValueScale::Raw,
+                    },
+                    transform: match config.transform {
+                        crate::config::Transform::None => ValueTransform::None,
+                        crate::config::Transform::Log1p => ValueTransform::Log1p,
                     },
                     region_names,
                 };

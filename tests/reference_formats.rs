@@ -5,7 +5,7 @@
 use std::path::{Path, PathBuf};
 
 use serde_json::Value;
-use strata::features::{build_features, FeatureOptions, FeatureSpace, ValueScale};
+use strata::features::{build_features, FeatureOptions, FeatureSpace, ValueScale, ValueTransform};
 use strata::read::nifti::read_raw_stack;
 use strata::read::{discover_inputs, read_participants, InputOptions};
 
@@ -22,7 +22,7 @@ fn numbers(value: &Value) -> Vec<f64> {
 }
 
 fn options(values: ValueScale) -> FeatureOptions {
-    FeatureOptions { mask: None, values, region_names: None }
+    FeatureOptions { mask: None, values, transform: ValueTransform::None, region_names: None }
 }
 
 #[test]
@@ -114,4 +114,95 @@ fn a_4d_file_among_several_is_refused() {
     let cohort = discover_inputs(&inputs, &table).unwrap();
     let message = build_features(&cohort, &options(ValueScale::Correlation)).unwrap_err().to_string();
     assert!(message.contains("sub-01_map.nii.gz: participant sub-01: image of shape 4x5x3x5; expected one 3D seed map per participant, or a single merged 4D file"), "{message}");
+}
+
+fn stacked_counts(
+    values: ValueScale,
+    transform: ValueTransform,
+) -> Result<strata::features::Features, String> {
+    let table = read_participants(&data("formats/participants.tsv")).unwrap();
+    let inputs = InputOptions {
+        patterns: vec![data("formats/counts_stack.npy").display().to_string()],
+        match_column: None,
+    };
+    let cohort = discover_inputs(&inputs, &table).unwrap();
+    build_features(&cohort, &FeatureOptions { mask: None, values, transform, region_names: None })
+        .map_err(|error| error.to_string())
+}
+
+#[test]
+fn raw_counts_and_log1p_equal_numpy() {
+    // Reference: numpy 2.4.6 upper triangles (triu_indices(6, 1)) of the counts, and numpy.log1p.
+    let reference = reference();
+    for (transform, key) in [(ValueTransform::None, "raw"), (ValueTransform::Log1p, "log1p")] {
+        let features = stacked_counts(ValueScale::Raw, transform).unwrap();
+        let expected = reference["counts"][key].as_array().unwrap();
+        assert_eq!(features.matrix.values.dim(), (5, 15));
+        for (row, expected) in expected.iter().enumerate() {
+            for (column, want) in numbers(expected).into_iter().enumerate() {
+                let got = f64::from(features.matrix.values[[row, column]]);
+                assert!(
+                    (got - want).abs() <= 1e-6 * want.abs().max(1.0),
+                    "{key} [{row}, {column}]: {got} vs {want}"
+                );
+            }
+        }
+    }
+    // The same counts as correlations are refused, and the message points at --values raw.
+    let message = stacked_counts(ValueScale::Correlation, ValueTransform::None).unwrap_err();
+    assert!(
+        message.contains(
+            "participant sub-01: row 1, column 2: value 46 is outside [-1, 1], so it is not a correlation"
+        ),
+        "{message}"
+    );
+    assert!(
+        message.contains("if they are not correlations (counts, densities), pass --values raw"),
+        "{message}"
+    );
+}
+
+#[test]
+fn log1p_of_a_negative_value_names_file_and_participant() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("participants.tsv"), "participant_id\nsub-01\nsub-02\n").unwrap();
+    std::fs::write(dir.path().join("sub-01_counts.csv"), "0,3,4\n3,0,5\n4,5,0\n").unwrap();
+    std::fs::write(dir.path().join("sub-02_counts.csv"), "0,3,4\n3,0,-2\n4,-2,0\n").unwrap();
+    let table = read_participants(&dir.path().join("participants.tsv")).unwrap();
+    let inputs = InputOptions {
+        patterns: vec![format!("{}/sub-*_counts.csv", dir.path().display())],
+        match_column: None,
+    };
+    let cohort = discover_inputs(&inputs, &table).unwrap();
+    let options = FeatureOptions {
+        mask: None,
+        values: ValueScale::Raw,
+        transform: ValueTransform::Log1p,
+        region_names: None,
+    };
+    let message = build_features(&cohort, &options).unwrap_err().to_string();
+    assert!(
+        message.contains("sub-02_counts.csv: participant sub-02: row 2, column 3: value -2 is negative; --transform log1p is for counts and densities (0 or more)"),
+        "{message}"
+    );
+}
+
+#[test]
+fn transform_needs_raw_values() {
+    use strata::config::{RunConfig, Transform, Values};
+    let mut config = RunConfig::with_defaults(
+        vec!["x.npy".into()],
+        "participants.tsv".into(),
+        "diagnosis",
+        ("a", "b"),
+        "out".into(),
+    );
+    config.transform = Transform::Log1p;
+    let message = config.clone().validate().unwrap_err().to_string();
+    assert!(
+        message.starts_with("--transform: applies to raw values (counts, densities) only; pass --values raw"),
+        "{message}"
+    );
+    config.values = Values::Raw;
+    assert!(config.validate().is_ok());
 }

@@ -182,9 +182,15 @@ pub struct RunArgs {
     /// non-zero in every participant.
     #[arg(long, value_name = "FILE", help_heading = "Inputs")]
     pub mask: Option<PathBuf>,
-    /// How input values are scaled: r (correlations; Fisher z is applied) or z (already Fisher z).
+    /// How input values are scaled: r (correlations; range-checked, Fisher z applied), z
+    /// (already Fisher z) or raw (not correlations, such as streamline counts or fibre densities:
+    /// used as they are, no range check, no Fisher z).
     #[arg(long, value_enum, default_value = "r", value_name = "SCALE", help_heading = "Inputs")]
     pub values: Values,
+    /// Transform of raw values (with --values raw): none, or log1p = log(1 + x) for counts
+    /// (negative values are an error).
+    #[arg(long, value_enum, default_value = "none", value_name = "NAME", help_heading = "Inputs")]
+    pub transform: config::Transform,
     /// Atlas table naming the regions of matrices: TSV with columns index, name (and optionally
     /// network), one row per region in matrix order.
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
@@ -293,6 +299,7 @@ impl RunArgs {
             force: self.force,
             mask: self.mask,
             values: self.values,
+            transform: self.transform,
             atlas: self.atlas,
             method: self.method,
             trials: self.trials,

@@ -26,6 +26,19 @@ pub enum ValueScale {
     Correlation,
     /// Already Fisher z: used as they are.
     FisherZ,
+    /// Not correlations (counts, densities, other measures): used as they are, no range check,
+    /// no Fisher z.
+    Raw,
+}
+
+/// A transform of raw values, applied before the scale's own handling.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ValueTransform {
+    /// Values as they are.
+    None,
+    /// log(1 + x) (`f64::ln_1p`, accurate near 0), for counts; negative values are refused.
+    Log1p,
 }
 
 /// Options of the features stage.
@@ -35,6 +48,8 @@ pub struct FeatureOptions {
     pub mask: Option<PathBuf>,
     /// How input values are scaled.
     pub values: ValueScale,
+    /// Transform applied to each value first (meant for `ValueScale::Raw`).
+    pub transform: ValueTransform,
     /// Region names for matrices, with the atlas table they came from.
     pub region_names: Option<(PathBuf, Vec<String>)>,
 }
@@ -67,14 +82,24 @@ pub struct Features {
     pub summary: FeatureSummary,
 }
 
-/// Transforms one value; Err(problem) when a correlation is out of range.
-fn transform(value: f64, scale: ValueScale, clipped: &mut usize) -> Result<f32, String> {
-    match scale {
-        ValueScale::FisherZ => Ok(value as f32),
+/// Transforms one value; Err(problem) when a correlation is out of range or a value to be
+/// log-transformed is negative.
+fn transform(value: f64, options: &FeatureOptions, clipped: &mut usize) -> Result<f32, String> {
+    let value = match options.transform {
+        ValueTransform::None => value,
+        ValueTransform::Log1p if value < 0.0 => {
+            return Err(format!(
+                "value {value} is negative; --transform log1p is for counts and densities (0 or more): check the file, or use --transform none"
+            ))
+        }
+        ValueTransform::Log1p => value.ln_1p(),
+    };
+    match options.values {
+        ValueScale::FisherZ | ValueScale::Raw => Ok(value as f32),
         ValueScale::Correlation => {
             if value.abs() > 1.0 + RANGE_TOLERANCE {
                 return Err(format!(
-                    "value {value} is outside [-1, 1], so it is not a correlation; if the inputs are already Fisher z, pass --values z"
+                    "value {value} is outside [-1, 1], so it is not a correlation; if the inputs are already Fisher z, pass --values z; if they are not correlations (counts, densities), pass --values raw"
                 ));
             }
             if value.abs() >= 1.0 - FISHER_Z_CLIP {
@@ -283,7 +308,7 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
                     invalid.push(column);
                     continue;
                 }
-                *target = transform(f64::from(value), options.values, &mut clipped).map_err(|problem| {
+                *target = transform(f64::from(value), options, &mut clipped).map_err(|problem| {
                     let (i, j, k) = voxel_ijk(voxel, reference.dim);
                     FeatureError::BadValue {
                         path: path.clone(),
@@ -355,7 +380,7 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
 fn matrix_row(
     matrix: ndarray::ArrayView2<f64>,
     regions: usize,
-    scale: ValueScale,
+    options: &FeatureOptions,
     out: &mut [f32],
     path: &Path,
     participant: &str,
@@ -388,7 +413,7 @@ fn matrix_row(
                     i + 1
                 )));
             }
-            out[index] = transform(value, scale, &mut clipped)
+            out[index] = transform(value, options, &mut clipped)
                 .map_err(|problem| bad(format!("row {}, column {}: {problem}", i + 1, j + 1)))?;
             index += 1;
         }
@@ -465,7 +490,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
                     owned.view()
                 }
             };
-            matrix_row(view, regions, options.values, out, path, participant)
+            matrix_row(view, regions, options, out, path, participant)
         })
         .collect();
     let mut clipped_values = 0;

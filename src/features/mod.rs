@@ -9,7 +9,7 @@ mod build;
 mod error;
 mod fisher;
 
-pub use build::{build_features, FeatureOptions, FeatureSummary, Features, ValueScale};
+pub use build::{build_features, FeatureOptions, FeatureSummary, Features, ValueScale, ValueTransform};
 pub use error::FeatureError;
 pub use fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 

@@ -4,6 +4,8 @@ values those libraries read back.
 Writes tests/data/formats/* and tests/data/formats_reference.json:
 - merged_4d.nii.gz: one 4 x 5 x 3 float32 volume per participant along the 4th dimension
   (nibabel), with participants.tsv naming the five participants in volume order.
+- counts_stack.npy: five symmetric 6 x 6 streamline-count matrices (numpy), with the upper
+  triangles as they are and after numpy's log1p.
 
 Run: python3 tests/data/generators/input_formats.py
 """
@@ -40,6 +42,23 @@ def merged_nifti(rng, reference):
     }
 
 
+def counts(rng, reference):
+    """Structural counts: heavy-tailed, zeros included, not correlations."""
+    regions = 6
+    stack = np.zeros((len(PARTICIPANTS), regions, regions))
+    for t in range(len(PARTICIPANTS)):
+        upper = np.triu(np.floor(rng.lognormal(3.0, 1.5, size=(regions, regions))), 1)
+        upper[0, 5] = 0.0
+        stack[t] = upper + upper.T
+    np.save(OUT / "counts_stack.npy", stack)
+    rows, cols = np.triu_indices(regions, 1)
+    reference["counts"] = {
+        "file": "formats/counts_stack.npy",
+        "raw": [[float(v) for v in m[rows, cols]] for m in stack],
+        "log1p": [[float(v) for v in np.log1p(m[rows, cols])] for m in stack],
+    }
+
+
 def main():
     OUT.mkdir(exist_ok=True)
     rng = np.random.default_rng(7)
@@ -52,6 +71,7 @@ def main():
         + "".join(f"{p}\t{'insomnia' if i % 2 else 'control'}\n" for i, p in enumerate(PARTICIPANTS))
     )
     merged_nifti(rng, reference)
+    counts(rng, reference)
     (DATA / "formats_reference.json").write_text(json.dumps(reference) + "\n")
 
 
