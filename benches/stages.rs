@@ -70,8 +70,11 @@ fn inputs(dir: &Path) -> (strata::read::Cohort, Vec<PathBuf>) {
     let table = read_participants(&dir.join("participants.tsv")).unwrap();
     let pattern =
         if dir.join("maps").exists() { "maps/sub-*_seedmap.nii.gz" } else { "matrices/sub-*_conn.npy" };
-    let options =
-        InputOptions { patterns: vec![dir.join(pattern).to_string_lossy().into_owned()], match_column: None };
+    let options = InputOptions {
+        patterns: vec![dir.join(pattern).to_string_lossy().into_owned()],
+        match_column: None,
+        variable: None,
+    };
     let cohort = discover_inputs(&options, &table).unwrap();
     let files = cohort.sources.iter().map(|source| source.path.clone()).collect();
     (cohort, files)

@@ -100,6 +100,8 @@ pub struct RunConfig {
     pub values: Values,
     /// Transform of raw values (`Values::Raw` only).
     pub transform: Transform,
+    /// The variable read from MATLAB `.mat` inputs (None: each file's only numeric variable).
+    pub variable: Option<String>,
     /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions.
     pub atlas: Option<PathBuf>,
     /// How the sweep's graphs are cut from the similarity matrix.
@@ -292,6 +294,7 @@ impl RunConfig {
             mask: None,
             values: Values::R,
             transform: Transform::None,
+            variable: None,
             atlas: None,
             graph: GraphRule::Density,
             densities: DEFAULT_DENSITIES.to_vec(),

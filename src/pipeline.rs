@@ -152,6 +152,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 let options = InputOptions {
                     patterns: config.inputs.clone(),
                     match_column: config.match_column.clone(),
+                    variable: config.variable.clone(),
                 };
                 (read::discover_inputs(&options, &table)?, None)
             }

@@ -58,6 +58,7 @@ fn merged_4d_nifti_rows_in_table_order() {
     let inputs = InputOptions {
         patterns: vec![data("formats/merged_4d.nii.gz").display().to_string()],
         match_column: None,
+        variable: None,
     };
     let cohort = discover_inputs(&inputs, &table).unwrap();
     assert_eq!(cohort.participant_ids, ["sub-01", "sub-02", "sub-03", "sub-04", "sub-05"]);
@@ -84,6 +85,7 @@ fn merged_4d_nifti_count_must_equal_the_table() {
     let inputs = InputOptions {
         patterns: vec![data("formats/merged_4d.nii.gz").display().to_string()],
         match_column: None,
+        variable: None,
     };
     let message = discover_inputs(&inputs, &table).unwrap_err().to_string();
     assert!(
@@ -110,6 +112,7 @@ fn a_4d_file_among_several_is_refused() {
     let inputs = InputOptions {
         patterns: vec![format!("{}/sub-*_map.nii.gz", dir.path().display())],
         match_column: None,
+        variable: None,
     };
     let cohort = discover_inputs(&inputs, &table).unwrap();
     let message = build_features(&cohort, &options(ValueScale::Correlation)).unwrap_err().to_string();
@@ -124,6 +127,7 @@ fn stacked_counts(
     let inputs = InputOptions {
         patterns: vec![data("formats/counts_stack.npy").display().to_string()],
         match_column: None,
+        variable: None,
     };
     let cohort = discover_inputs(&inputs, &table).unwrap();
     build_features(&cohort, &FeatureOptions { mask: None, values, transform, region_names: None })
@@ -172,6 +176,7 @@ fn log1p_of_a_negative_value_names_file_and_participant() {
     let inputs = InputOptions {
         patterns: vec![format!("{}/sub-*_counts.csv", dir.path().display())],
         match_column: None,
+        variable: None,
     };
     let cohort = discover_inputs(&inputs, &table).unwrap();
     let options = FeatureOptions {
@@ -205,4 +210,196 @@ fn transform_needs_raw_values() {
     );
     config.values = Values::Raw;
     assert!(config.validate().is_ok());
+}
+
+// MATLAB level-5 `.mat`: files written by scipy 1.17.1 io.savemat (do_compression False and
+// True), compared with what scipy.io.loadmat reads back (row-major lists of the MATLAB arrays).
+
+fn matrix_of(value: &Value) -> Vec<Vec<f64>> {
+    value.as_array().unwrap().iter().map(numbers).collect()
+}
+
+fn mat_reference(name: &str) -> Value {
+    reference()["mat"]["files"][name].clone()
+}
+
+#[test]
+fn mat_level5_plain_and_compressed_equal_scipy() {
+    use strata::read::mat::{list_variables, matrix_of as mat_matrix, read_variable};
+    for name in ["matrix_plain.mat", "matrix_compressed.mat"] {
+        let path = data(&format!("formats/mat/{name}"));
+        let listed: Vec<String> =
+            list_variables(&path, "sub-01").unwrap().iter().map(|variable| variable.describe()).collect();
+        assert_eq!(
+            listed,
+            ["atlas (char 1x10)", "conn (double 3x4)", "counts (int16 3x4)", "names (cell 3x1)"],
+            "{name}"
+        );
+        let expected = mat_reference(name);
+        for variable in ["conn", "counts"] {
+            let array = read_variable(&path, "sub-01", Some(variable)).unwrap();
+            // Column-major storage turned round: a 3 x 4 matrix that is not symmetric.
+            let matrix = mat_matrix(&array, &path, "sub-01").unwrap();
+            let want = matrix_of(&expected[variable]);
+            assert_eq!(matrix.dim(), (3, 4));
+            for (i, row) in want.iter().enumerate() {
+                for (j, &value) in row.iter().enumerate() {
+                    assert!((matrix[[i, j]] - value).abs() <= 1e-12, "{name} {variable}[{i}, {j}]");
+                }
+            }
+        }
+    }
+}
+
+#[test]
+fn mat_per_participant_and_stacks_give_the_same_features_as_scipy() {
+    let table = read_participants(&data("formats/participants.tsv")).unwrap();
+    let per_participant: Vec<Vec<Vec<f64>>> =
+        (1..=5).map(|k| matrix_of(&mat_reference(&format!("sub-0{k}_conn.mat"))["conn"])).collect();
+    let stack_rrn: Vec<Vec<Vec<f64>>> =
+        mat_reference("stack_rrn.mat")["conn"].as_array().unwrap().iter().map(matrix_of).collect();
+    let stack_nrr: Vec<Vec<Vec<f64>>> =
+        mat_reference("stack_nrr.mat")["conn"].as_array().unwrap().iter().map(matrix_of).collect();
+    for (pattern, variable, expected, tolerance) in [
+        ("formats/mat/sub-*_conn.mat", Some("conn"), &per_participant, 1e-6),
+        ("formats/mat/stack_rrn.mat", None, &stack_rrn, 1e-6),
+        // float32 storage.
+        ("formats/mat/stack_nrr.mat", Some("conn"), &stack_nrr, 1e-5),
+    ] {
+        let inputs = InputOptions {
+            patterns: vec![data(pattern).display().to_string()],
+            match_column: None,
+            variable: variable.map(str::to_string),
+        };
+        let cohort = discover_inputs(&inputs, &table).unwrap();
+        let features = build_features(&cohort, &options(ValueScale::Correlation)).unwrap();
+        assert_eq!(features.matrix.values.dim(), (5, 15), "{pattern}");
+        for (row, matrix) in expected.iter().enumerate() {
+            let upper = (0..6).flat_map(|i| ((i + 1)..6).map(move |j| (i, j)));
+            for (column, (i, j)) in upper.enumerate() {
+                // Fisher 1921: z = atanh(r), upper triangle in numpy triu_indices order.
+                let want = matrix[i][j].atanh();
+                let got = f64::from(features.matrix.values[[row, column]]);
+                assert!((got - want).abs() <= tolerance * want.abs().max(1.0), "{pattern} [{row}, {column}]");
+            }
+        }
+    }
+}
+
+fn mat_error(pattern: &str, variable: Option<&str>, table_rows: &[&str]) -> String {
+    let dir = tempfile::tempdir().unwrap();
+    let table_path = dir.path().join("participants.tsv");
+    std::fs::write(&table_path, format!("participant_id\n{}\n", table_rows.join("\n"))).unwrap();
+    let table = read_participants(&table_path).unwrap();
+    let inputs = InputOptions {
+        patterns: vec![pattern.to_string()],
+        match_column: None,
+        variable: variable.map(str::to_string),
+    };
+    match discover_inputs(&inputs, &table) {
+        Err(error) => error.to_string(),
+        Ok(cohort) => build_features(&cohort, &options(ValueScale::Correlation)).unwrap_err().to_string(),
+    }
+}
+
+#[test]
+fn bad_mat_inputs_are_refused_with_their_reason() {
+    let five = ["sub-01", "sub-02", "sub-03", "sub-04", "sub-05"];
+    let stack = data("formats/mat/stack_rrn.mat").display().to_string();
+    let message = mat_error(&stack, Some("connectivity"), &five);
+    assert!(
+        message.contains("no variable named 'connectivity'; the file holds conn (double 6x6x5)"),
+        "{message}"
+    );
+
+    let message = mat_error(&stack, None, &five[..3]);
+    assert!(
+        message.contains("stack of 5 matrices but")
+            && message.contains(
+                "has 3 participants; a stacked R x R x N variable must hold one matrix per table row"
+            ),
+        "{message}"
+    );
+
+    let message = mat_error(&data("formats/mat/four_dims.mat").display().to_string(), None, &five);
+    assert!(message.contains("variable conn (double 2x2x2x2) has 4 dimensions; expected an R x R matrix per participant or one R x R x N stack"), "{message}");
+
+    let message = mat_error(&data("formats/mat/not_a_stack.mat").display().to_string(), None, &five);
+    assert!(message.contains("variable conn (double 3x4x5) is neither R x R x N"), "{message}");
+
+    // Two participants' files: one 3 x 4 (not square), one with several numeric variables.
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::copy(data("formats/mat/matrix_compressed.mat"), dir.path().join("sub-01_conn.mat")).unwrap();
+    std::fs::copy(data("formats/mat/sub-02_conn.mat"), dir.path().join("sub-02_conn.mat")).unwrap();
+    let pattern = format!("{}/sub-*_conn.mat", dir.path().display());
+    let message = mat_error(&pattern, None, &five[..2]);
+    assert!(message.contains("sub-01_conn.mat: participant sub-01: 2 numeric variables (atlas (char 1x10), conn (double 3x4), counts (int16 3x4), names (cell 3x1)); choose one with --variable NAME"), "{message}");
+    let message = mat_error(&pattern, Some("conn"), &five[..2]);
+    assert!(
+        message.contains("sub-01_conn.mat: participant sub-01: matrix of shape 3x4 is not square"),
+        "{message}"
+    );
+    let message = mat_error(&pattern, Some("names"), &five[..2]);
+    assert!(
+        message.contains("participant sub-01: variable names is a cell array; strata reads numeric arrays"),
+        "{message}"
+    );
+
+    // NaN off the diagonal.
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::copy(data("formats/mat/with_nan.mat"), dir.path().join("sub-01_conn.mat")).unwrap();
+    std::fs::copy(data("formats/mat/sub-02_conn.mat"), dir.path().join("sub-02_conn.mat")).unwrap();
+    let message = mat_error(&format!("{}/sub-*_conn.mat", dir.path().display()), Some("conn"), &five[..2]);
+    assert!(
+        message.contains("sub-01_conn.mat: participant sub-01: value NaN at row 3, column 5 (1-based)"),
+        "{message}"
+    );
+
+    // Truncated inside the variable read, and not a MAT-file at all.
+    for (first, second, expected) in [
+        (
+            &bytes_of("formats/mat/sub-01_conn.mat")[..200],
+            bytes_of("formats/mat/sub-02_conn.mat"),
+            "sub-01_conn.mat: participant sub-01: the file ends inside a data element; it is truncated or corrupt",
+        ),
+        (
+            &bytes_of("formats/mat/sub-01_conn.mat")[..],
+            b"conn = [1 0.5; 0.5 1]\n".to_vec(),
+            "sub-02_conn.mat: participant sub-02: 22 bytes, shorter than the 128-byte MAT-file header",
+        ),
+    ] {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(dir.path().join("sub-01_conn.mat"), first).unwrap();
+        std::fs::write(dir.path().join("sub-02_conn.mat"), second).unwrap();
+        let message = mat_error(&format!("{}/sub-*_conn.mat", dir.path().display()), Some("conn"), &five[..2]);
+        assert!(message.contains(expected), "{message}");
+    }
+}
+
+fn bytes_of(name: &str) -> Vec<u8> {
+    std::fs::read(data(name)).unwrap()
+}
+
+#[test]
+fn damaged_mat_files_give_errors_never_panics() {
+    // Every truncation and a byte flipped at every position of two files (one compressed, one
+    // not): the reader returns Ok or an error, and never panics.
+    use strata::read::mat::{list_variables, read_variable};
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("damaged.mat");
+    for name in ["formats/mat/matrix_plain.mat", "formats/mat/sub-01_conn.mat"] {
+        let bytes = bytes_of(name);
+        for cut in 0..bytes.len() {
+            std::fs::write(&path, &bytes[..cut]).unwrap();
+            let _ = list_variables(&path, "sub-01");
+            let _ = read_variable(&path, "sub-01", Some("conn"));
+        }
+        for at in 0..bytes.len() {
+            let mut flipped = bytes.clone();
+            flipped[at] ^= 0xa5;
+            std::fs::write(&path, &flipped).unwrap();
+            let _ = list_variables(&path, "sub-01");
+            let _ = read_variable(&path, "sub-01", Some("conn"));
+        }
+    }
 }

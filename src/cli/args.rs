@@ -191,6 +191,11 @@ pub struct RunArgs {
     /// (negative values are an error).
     #[arg(long, value_enum, default_value = "none", value_name = "NAME", help_heading = "Inputs")]
     pub transform: config::Transform,
+    /// The variable to read from MATLAB .mat inputs (an R x R matrix per file, or one R x R x N
+    /// stack with participants along the third dimension). Default: the file's only numeric
+    /// variable.
+    #[arg(long, value_name = "NAME", help_heading = "Inputs")]
+    pub variable: Option<String>,
     /// Atlas table naming the regions of matrices: TSV with columns index, name (and optionally
     /// network), one row per region in matrix order.
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
@@ -300,6 +305,7 @@ impl RunArgs {
             mask: self.mask,
             values: self.values,
             transform: self.transform,
+            variable: self.variable,
             atlas: self.atlas,
             method: self.method,
             trials: self.trials,

@@ -8,7 +8,7 @@ use serde::Serialize;
 
 use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
-use crate::read::matrix::{read_matrix, read_stack};
+use crate::read::matrix::{read_matrix_in, read_stack_in};
 use crate::read::nifti::{
     affines_match, format_affine, read_raw, read_raw_stack, read_volume, RawVolume, Volume, STACK_PARTICIPANT,
 };
@@ -425,7 +425,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
     let participants = cohort.participant_ids.len();
     let first_path = cohort.sources[0].path.clone();
     let stack = match cohort.sources[0].stack_index {
-        Some(_) => Some(read_stack(&first_path)?),
+        Some(_) => Some(read_stack_in(&first_path, cohort.variable.as_deref())?),
         None => None,
     };
     let check_square = |shape: (usize, usize), path: &Path, participant: &str| -> Result<(), FeatureError> {
@@ -443,7 +443,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
     };
     let first_matrix = match &stack {
         Some(stack) => stack.index_axis(ndarray::Axis(0), 0).to_owned(),
-        None => read_matrix(&first_path, &cohort.participant_ids[0])?,
+        None => read_matrix_in(&first_path, &cohort.participant_ids[0], cohort.variable.as_deref())?,
     };
     check_square(first_matrix.dim(), &first_path, &cohort.participant_ids[0])?;
     let regions = first_matrix.nrows();
@@ -476,7 +476,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
                 (Some(stack), _) => stack.index_axis(ndarray::Axis(0), row),
                 (None, 0) => first_matrix.view(),
                 (None, _) => {
-                    owned = read_matrix(path, participant)?;
+                    owned = read_matrix_in(path, participant, cohort.variable.as_deref())?;
                     check_square(owned.dim(), path, participant)?;
                     if owned.nrows() != regions {
                         return Err(FeatureError::RegionCountMismatch {

@@ -3,8 +3,9 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
+use super::nifti::STACK_PARTICIPANT;
 use super::table::ParticipantsTable;
-use super::{matrix, nifti, ReadError};
+use super::{mat, matrix, nifti, ReadError};
 use crate::error::list_ids;
 
 /// How input files are found and matched to participants.
@@ -15,6 +16,8 @@ pub struct InputOptions {
     /// Match files by this participants-table column (its value must occur in the file name as a
     /// whole token) instead of the `sub-<label>` in the file name.
     pub match_column: Option<String>,
+    /// The variable to read from MATLAB `.mat` files (None: the file's only numeric variable).
+    pub variable: Option<String>,
 }
 
 /// What kind of data the inputs hold.
@@ -50,6 +53,8 @@ pub struct Cohort {
     pub sources: Vec<InputSource>,
     /// What the inputs are.
     pub kind: InputKind,
+    /// The variable read from MATLAB `.mat` inputs (None: each file's only numeric variable).
+    pub variable: Option<String>,
 }
 
 /// The input kind of a file, from its name.
@@ -57,7 +62,7 @@ pub fn kind_of(path: &Path) -> Option<InputKind> {
     let name = path.file_name()?.to_string_lossy().to_ascii_lowercase();
     if name.ends_with(".nii") || name.ends_with(".nii.gz") {
         Some(InputKind::SeedMaps)
-    } else if [".npy", ".csv", ".tsv", ".txt"].iter().any(|extension| name.ends_with(extension)) {
+    } else if [".npy", ".csv", ".tsv", ".txt", ".mat"].iter().any(|extension| name.ends_with(extension)) {
         Some(InputKind::RegionMatrices)
     } else {
         None
@@ -136,7 +141,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     for file in &files {
         let this = kind_of(file).ok_or_else(|| ReadError::Format {
             path: file.clone(),
-            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt region matrices".into(),
+            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt/.mat region matrices".into(),
         })?;
         match kind {
             None => kind = Some(this),
@@ -164,6 +169,37 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             "matrices",
             "a stacked N x R x R array must hold one matrix",
         )),
+        (1, InputKind::RegionMatrices) if matrix::is_mat(first) => {
+            let variable = mat::find_variable(first, STACK_PARTICIPANT, options.variable.as_deref())?;
+            match variable.dims.len() {
+                2 => None,
+                3 => {
+                    let axis = mat::stack_axis(&variable).ok_or_else(|| ReadError::Format {
+                        path: first.clone(),
+                        problem: format!(
+                            "variable {} is neither R x R x N (participants along the third dimension) nor N x R x R; a stack holds one square matrix per participant",
+                            variable.describe()
+                        ),
+                    })?;
+                    Some((
+                        variable.dims[axis],
+                        "stack of",
+                        "matrices",
+                        "a stacked R x R x N variable must hold one matrix",
+                    ))
+                }
+                _ => {
+                    return Err(ReadError::Format {
+                        path: first.clone(),
+                        problem: format!(
+                            "variable {} has {} dimensions; expected an R x R matrix per participant or one R x R x N stack",
+                            variable.describe(),
+                            variable.dims.len()
+                        ),
+                    })
+                }
+            }
+        }
         (1, InputKind::SeedMaps) => match nifti::frame_count(first)? {
             1 => None,
             frames => Some((
@@ -199,6 +235,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             participant_ids: table.ids().iter().map(|id| id.to_string()).collect(),
             sources,
             kind,
+            variable: options.variable.clone(),
         });
     }
 
@@ -294,6 +331,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             .map(|path| InputSource { path, stack_index: None })
             .collect(),
         kind,
+        variable: options.variable.clone(),
     })
 }
 

@@ -190,8 +190,9 @@ pub fn read_raw_stack(path: &Path) -> Result<RawVolume, ReadError> {
     parse_raw(path, STACK_PARTICIPANT, true)
 }
 
-/// The participant named in messages about a merged 4D file as a whole.
-pub const STACK_PARTICIPANT: &str = "(every participant: merged 4D file)";
+/// The participant named in messages about a file that holds every participant (a merged 4D
+/// NIfTI, a stacked array).
+pub const STACK_PARTICIPANT: &str = "(every participant: one stacked file)";
 
 /// A volume whose voxel values are still in their stored form, decoded on demand: reading only
 /// the masked voxels of each participant avoids converting (and allocating) the whole grid.

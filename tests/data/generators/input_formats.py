@@ -4,6 +4,11 @@ values those libraries read back.
 Writes tests/data/formats/* and tests/data/formats_reference.json:
 - merged_4d.nii.gz: one 4 x 5 x 3 float32 volume per participant along the 4th dimension
   (nibabel), with participants.tsv naming the five participants in volume order.
+- mat/*.mat: MATLAB level-5 files written by scipy.io.savemat, compressed and not: a 3 x 4
+  float64 matrix with an int16 matrix, a char array and a cell array beside it; a 6 x 6 x 5
+  (R x R x N, MATLAB's layout) and a 5 x 6 x 6 (N x R x R) stack of correlation matrices; one
+  6 x 6 matrix per participant; a 4D variable and a matrix with a NaN; with the values
+  scipy.io.loadmat reads back.
 - counts_stack.npy: five symmetric 6 x 6 streamline-count matrices (numpy), with the upper
   triangles as they are and after numpy's log1p.
 
@@ -15,6 +20,8 @@ import pathlib
 
 import nibabel as nib
 import numpy as np
+import scipy
+import scipy.io
 
 DATA = pathlib.Path(__file__).resolve().parents[1]
 OUT = DATA / "formats"
@@ -59,6 +66,60 @@ def counts(rng, reference):
     }
 
 
+def correlation_matrix(rng, regions):
+    """A symmetric correlation matrix with unit diagonal (from random time series)."""
+    series = rng.normal(size=(40, regions))
+    series[:, 1] += 0.8 * series[:, 0]
+    return np.corrcoef(series, rowvar=False)
+
+
+def savemat(name, variables, compress):
+    path = OUT / "mat" / name
+    scipy.io.savemat(path, variables, do_compression=compress, oned_as="column")
+    # savemat writes the creation time into the 116-byte header text: blank it so the bytes are
+    # identical from run to run (the text is free-form, MAT-File Format).
+    raw = bytearray(path.read_bytes())
+    text = b"MATLAB 5.0 MAT-file, written by strata's test generator (scipy.io.savemat)"
+    raw[:116] = text.ljust(116, b" ")
+    path.write_bytes(bytes(raw))
+    return path
+
+
+def mat_files(rng, reference):
+    (OUT / "mat").mkdir(exist_ok=True)
+    cases = {}
+    plain = np.arange(12, dtype=np.float64).reshape(3, 4) / 8.0 - 0.7
+    counts = rng.integers(-300, 300, size=(3, 4)).astype(np.int16)
+    names = np.empty((3,), dtype=object)
+    names[:] = ["left", "right", "middle"]
+    for compress in (False, True):
+        name = f"matrix_{'compressed' if compress else 'plain'}.mat"
+        path = savemat(name, {"atlas": "northfield", "conn": plain, "counts": counts, "names": names}, compress)
+        back = scipy.io.loadmat(path)
+        cases[name] = {
+            "conn": back["conn"].tolist(),
+            "counts": back["counts"].astype(np.float64).tolist(),
+        }
+    stack = np.stack([correlation_matrix(rng, 6) for _ in PARTICIPANTS], axis=2)
+    path = savemat("stack_rrn.mat", {"conn": stack}, True)
+    back = scipy.io.loadmat(path)["conn"]
+    cases["stack_rrn.mat"] = {"conn": [back[:, :, k].tolist() for k in range(back.shape[2])]}
+    path = savemat("stack_nrr.mat", {"conn": np.ascontiguousarray(np.moveaxis(stack, 2, 0)).astype(np.float32)}, False)
+    back = scipy.io.loadmat(path)["conn"]
+    cases["stack_nrr.mat"] = {"conn": [back[k].astype(np.float64).tolist() for k in range(back.shape[0])]}
+    for index, participant in enumerate(PARTICIPANTS):
+        name = f"{participant}_conn.mat"
+        matrix = correlation_matrix(rng, 6)
+        path = savemat(name, {"conn": matrix, "motion": np.array([[0.1 * index]])}, index % 2 == 0)
+        cases[name] = {"conn": scipy.io.loadmat(path)["conn"].tolist()}
+    savemat("four_dims.mat", {"conn": np.zeros((2, 2, 2, 2))}, True)
+    with_nan = correlation_matrix(rng, 6)
+    with_nan[2, 4] = with_nan[4, 2] = np.nan
+    savemat("with_nan.mat", {"conn": with_nan}, True)
+    savemat("not_a_stack.mat", {"conn": np.zeros((3, 4, 5))}, False)
+    reference["mat"] = {"source": f"scipy {scipy.__version__} io.savemat / io.loadmat", "files": cases}
+
+
 def main():
     OUT.mkdir(exist_ok=True)
     rng = np.random.default_rng(7)
@@ -72,6 +133,7 @@ def main():
     )
     merged_nifti(rng, reference)
     counts(rng, reference)
+    mat_files(rng, reference)
     (DATA / "formats_reference.json").write_text(json.dumps(reference) + "\n")
 
 
