@@ -403,3 +403,157 @@ fn damaged_mat_files_give_errors_never_panics() {
         }
     }
 }
+
+// HDF5 and MATLAB v7.3: files written by h5py 3.16.0 (chunked, gzip, shuffle; a v7.3-style file
+// with a 512-byte user block and MATLAB's reversed dimensions), compared with what h5py reads
+// back (tests/data/generators/input_formats.py).
+
+fn hdf5_reference(name: &str) -> Value {
+    reference()["hdf5"]["files"][name].clone()
+}
+
+fn assert_matrix(got: &ndarray::Array2<f64>, want: &[Vec<f64>], tolerance: f64, what: &str) {
+    assert_eq!(got.dim(), (want.len(), want[0].len()), "{what}");
+    for (i, row) in want.iter().enumerate() {
+        for (j, &value) in row.iter().enumerate() {
+            assert!(
+                (got[[i, j]] - value).abs() <= tolerance,
+                "{what} [{i}, {j}]: {} vs {value}",
+                got[[i, j]]
+            );
+        }
+    }
+}
+
+#[test]
+fn hdf5_chunked_and_matlab_v73_equal_h5py() {
+    use strata::read::mat::{
+        list_variables, matrix_of as mat_matrix, read_variable, stack_axis, stack_matrix,
+    };
+    let path = data("formats/h5/stack_chunked.h5");
+    let listed: Vec<String> = list_variables(&path, "sub-01").unwrap().iter().map(|v| v.describe()).collect();
+    assert_eq!(
+        listed,
+        ["group/conn (double 5x6x6)", "ints (double 3x4)", "names (unknown 3)", "plain (double 3x4)"]
+    );
+    let expected = hdf5_reference("stack_chunked.h5");
+    for name in ["plain", "ints"] {
+        let array = read_variable(&path, "sub-01", Some(name)).unwrap();
+        let want = matrix_of(&expected[name]);
+        assert_matrix(&mat_matrix(&array, &path, "sub-01").unwrap(), &want, 1e-7, name);
+    }
+    let stack = read_variable(&path, "sub-01", Some("/group/conn")).unwrap();
+    assert_eq!(stack_axis(&stack.variable), Some(0));
+    for (k, want) in expected["group/conn"].as_array().unwrap().iter().enumerate() {
+        assert_matrix(&stack_matrix(&stack, 0, k), &matrix_of(want), 1e-12, "group/conn");
+    }
+
+    // MATLAB v7.3: rect is 3 x 4 in MATLAB (stored 4 x 3 in HDF5); conn is R x R x N.
+    let path = data("formats/h5/matlab_v73.mat");
+    let expected = hdf5_reference("matlab_v73.mat");
+    let rect = read_variable(&path, "sub-01", Some("rect")).unwrap();
+    assert_eq!(rect.variable.dims, [3, 4]);
+    assert_matrix(&mat_matrix(&rect, &path, "sub-01").unwrap(), &matrix_of(&expected["rect"]), 1e-12, "rect");
+    let conn = read_variable(&path, "sub-01", Some("conn")).unwrap();
+    assert_eq!(conn.variable.dims, [6, 6, 5]);
+    assert_eq!(stack_axis(&conn.variable), Some(2));
+    for (k, want) in expected["conn"].as_array().unwrap().iter().enumerate() {
+        assert_matrix(&stack_matrix(&conn, 2, k), &matrix_of(want), 1e-12, "conn");
+    }
+}
+
+#[test]
+fn hdf5_and_v73_stacks_give_features_in_table_order() {
+    let table = read_participants(&data("formats/participants.tsv")).unwrap();
+    for (file, dataset, key) in
+        [("stack_chunked.h5", "/group/conn", "group/conn"), ("matlab_v73.mat", "conn", "conn")]
+    {
+        let inputs = InputOptions {
+            patterns: vec![data(&format!("formats/h5/{file}")).display().to_string()],
+            match_column: None,
+            variable: Some(dataset.into()),
+        };
+        let cohort = discover_inputs(&inputs, &table).unwrap();
+        let features = build_features(&cohort, &options(ValueScale::Correlation)).unwrap();
+        let expected = hdf5_reference(file);
+        for (row, matrix) in expected[key].as_array().unwrap().iter().map(matrix_of).enumerate() {
+            let upper = (0..6).flat_map(|i| ((i + 1)..6).map(move |j| (i, j)));
+            for (column, (i, j)) in upper.enumerate() {
+                // Fisher 1921: z = atanh(r).
+                let want = matrix[i][j].atanh();
+                let got = f64::from(features.matrix.values[[row, column]]);
+                assert!((got - want).abs() <= 1e-6 * want.abs().max(1.0), "{file} [{row}, {column}]");
+            }
+        }
+    }
+}
+
+#[test]
+fn bad_hdf5_inputs_are_refused_with_their_reason() {
+    let five = ["sub-01", "sub-02", "sub-03", "sub-04", "sub-05"];
+    let stack = data("formats/h5/stack_chunked.h5").display().to_string();
+    let message = mat_error(&stack, Some("conn"), &five);
+    assert!(
+        message.contains("no dataset 'conn'; the file holds group/conn (5x6x6), ints (3x4), names (non-numeric 3), plain (3x4); give one of them with --dataset"),
+        "{message}"
+    );
+    let message = mat_error(&stack, None, &five);
+    assert!(message.contains("3 numeric datasets ("), "{message}");
+    assert!(message.contains("choose one with --dataset PATH"), "{message}");
+
+    let dir = tempfile::tempdir().unwrap();
+    for id in ["sub-01", "sub-02"] {
+        std::fs::copy(data("formats/h5/stack_chunked.h5"), dir.path().join(format!("{id}_conn.h5"))).unwrap();
+    }
+    let pattern = format!("{}/sub-*_conn.h5", dir.path().display());
+    let message = mat_error(&pattern, Some("plain"), &five[..2]);
+    assert!(
+        message.contains("sub-01_conn.h5: participant sub-01: matrix of shape 3x4 is not square"),
+        "{message}"
+    );
+    let message = mat_error(&pattern, Some("names"), &five[..2]);
+    assert!(message.contains("participant sub-01: dataset 'names' is of element type"), "{message}");
+    assert!(message.contains("strata reads numeric arrays"), "{message}");
+
+    let dir = tempfile::tempdir().unwrap();
+    let bytes = bytes_of("formats/h5/stack_chunked.h5");
+    std::fs::write(dir.path().join("sub-01_conn.h5"), &bytes[..3000]).unwrap();
+    std::fs::copy(data("formats/h5/stack_chunked.h5"), dir.path().join("sub-02_conn.h5")).unwrap();
+    let message = mat_error(&format!("{}/sub-*_conn.h5", dir.path().display()), Some("plain"), &five[..2]);
+    assert!(message.contains("sub-01_conn.h5: participant sub-01: cannot"), "{message}");
+    assert!(
+        message.contains("the file is truncated, corrupt")
+            || message.contains("the file is truncated or corrupt"),
+        "{message}"
+    );
+
+    // A MATLAB v7.3 file per participant: the 3 x 4 variable (4 x 3 in HDF5) is named as MATLAB
+    // sees it.
+    let dir = tempfile::tempdir().unwrap();
+    for id in ["sub-01", "sub-02"] {
+        std::fs::copy(data("formats/h5/matlab_v73.mat"), dir.path().join(format!("{id}_conn.mat"))).unwrap();
+    }
+    let message = mat_error(&format!("{}/sub-*_conn.mat", dir.path().display()), Some("rect"), &five[..2]);
+    assert!(
+        message.contains("sub-01_conn.mat: participant sub-01: matrix of shape 3x4 is not square"),
+        "{message}"
+    );
+}
+
+#[test]
+fn damaged_hdf5_files_give_errors_never_panics() {
+    // Truncations and flipped bytes across an h5py file (every 11th position, to keep the test
+    // short): the reader returns Ok or an error, and never panics or aborts.
+    use strata::read::mat::read_variable;
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("damaged.h5");
+    let bytes = bytes_of("formats/h5/stack_chunked.h5");
+    for at in (0..bytes.len()).step_by(11) {
+        std::fs::write(&path, &bytes[..at]).unwrap();
+        let _ = read_variable(&path, "sub-01", Some("group/conn"));
+        let mut flipped = bytes.clone();
+        flipped[at] ^= 0xff;
+        std::fs::write(&path, &flipped).unwrap();
+        let _ = read_variable(&path, "sub-01", Some("group/conn"));
+    }
+}

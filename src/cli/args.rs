@@ -191,10 +191,10 @@ pub struct RunArgs {
     /// (negative values are an error).
     #[arg(long, value_enum, default_value = "none", value_name = "NAME", help_heading = "Inputs")]
     pub transform: config::Transform,
-    /// The variable to read from MATLAB .mat inputs (an R x R matrix per file, or one R x R x N
-    /// stack with participants along the third dimension). Default: the file's only numeric
-    /// variable.
-    #[arg(long, value_name = "NAME", help_heading = "Inputs")]
+    /// The variable of MATLAB .mat inputs, or the dataset path of HDF5 inputs (--dataset is
+    /// the same flag; for example group/conn): an R x R matrix per file, or one stack for the
+    /// cohort (MATLAB R x R x N, numpy/HDF5 N x R x R). Default: the file's only numeric array.
+    #[arg(long, visible_alias = "dataset", value_name = "NAME", help_heading = "Inputs")]
     pub variable: Option<String>,
     /// Atlas table naming the regions of matrices: TSV with columns index, name (and optionally
     /// network), one row per region in matrix order.

@@ -62,7 +62,10 @@ pub fn kind_of(path: &Path) -> Option<InputKind> {
     let name = path.file_name()?.to_string_lossy().to_ascii_lowercase();
     if name.ends_with(".nii") || name.ends_with(".nii.gz") {
         Some(InputKind::SeedMaps)
-    } else if [".npy", ".csv", ".tsv", ".txt", ".mat"].iter().any(|extension| name.ends_with(extension)) {
+    } else if [".npy", ".csv", ".tsv", ".txt", ".mat", ".h5", ".hdf5"]
+        .iter()
+        .any(|extension| name.ends_with(extension))
+    {
         Some(InputKind::RegionMatrices)
     } else {
         None
@@ -141,7 +144,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     for file in &files {
         let this = kind_of(file).ok_or_else(|| ReadError::Format {
             path: file.clone(),
-            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt/.mat region matrices".into(),
+            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt/.mat/.h5/.hdf5 region matrices".into(),
         })?;
         match kind {
             None => kind = Some(this),

@@ -13,8 +13,12 @@
 //! array of small integers as `miUINT8`, for example). Uncompressed elements are padded to 8
 //! bytes. Cell, struct, object, character and sparse arrays are listed in messages but not read.
 //!
-//! MATLAB v7.3 files are HDF5 files with a 512-byte user block; their header text says so, and
-//! they are recognised here and refused with a message until an HDF5 reader reads them.
+//! MATLAB v7.3 files are HDF5 files with a 512-byte user block; they are recognised by their
+//! header and read through [`super::hdf5`]: HDF5 stores MATLAB's column-major array with its
+//! dimensions reversed, so the MATLAB dimensions are the HDF5 shape reversed and the values keep
+//! their order. Plain HDF5 files (`.h5`, `.hdf5`) are read the same way, their row-major (numpy)
+//! order turned into this module's column-major one, so every container format ends as a
+//! [`MatArray`].
 //!
 //! A small reader of its own rather than the `matfile` crate (0.5.0, October 2024): that crate
 //! prints to standard output on element types it does not know, reads the MATLAB int32 class as
@@ -60,6 +64,9 @@ pub struct MatVariable {
     pub class: &'static str,
     /// Dimensions, MATLAB order (rows, columns, pages...).
     pub dims: Vec<usize>,
+    /// The array came from a row-major file (`.h5`, `.hdf5`: numpy's convention), so a stack
+    /// whose three dimensions are equal holds its participants along the first axis.
+    pub numpy_order: bool,
 }
 
 impl MatVariable {
@@ -166,7 +173,11 @@ fn element(bytes: &[u8], at: usize, order: Order, pad: bool) -> Result<Element<'
 fn matrix_header(data: &[u8], order: Order) -> Result<(MatVariable, bool, usize), Problem> {
     if data.is_empty() {
         // An empty array as saved by some writers: no subelements at all.
-        return Ok((MatVariable { name: String::new(), class: "double", dims: vec![0, 0] }, false, 0));
+        return Ok((
+            MatVariable { name: String::new(), class: "double", dims: vec![0, 0], numpy_order: false },
+            false,
+            0,
+        ));
     }
     let flags = element(data, 0, order, true)?;
     if flags.kind != MI_UINT32 || flags.data.len() < 4 {
@@ -192,7 +203,7 @@ fn matrix_header(data: &[u8], order: Order) -> Result<(MatVariable, bool, usize)
         return Err("an array's name is missing; the file is corrupt or not a MAT-file".into());
     }
     let name = String::from_utf8_lossy(name_element.data).trim_end_matches('\0').to_string();
-    Ok((MatVariable { name, class, dims }, complex, name_element.next))
+    Ok((MatVariable { name, class, dims, numpy_order: false }, complex, name_element.next))
 }
 
 /// Converts a numeric subelement to f64 in `out` (length checked by the caller).
@@ -380,16 +391,111 @@ fn invalid(path: &Path, participant: &str, problem: String) -> ReadError {
     ReadError::Invalid { path: path.to_path_buf(), participant: participant.to_string(), problem }
 }
 
-fn read_file(path: &Path, participant: &str) -> Result<Vec<u8>, ReadError> {
-    let bytes = std::fs::read(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
-    if is_v73(&bytes) {
-        return Err(invalid(
-            path,
-            participant,
-            "is a MATLAB v7.3 (HDF5) file, which strata does not read yet; save it as a level-5 file with save(FILE, NAME, '-v7')".into(),
-        ));
+fn read_file(path: &Path) -> Result<Vec<u8>, ReadError> {
+    std::fs::read(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })
+}
+
+/// True for `.h5` / `.hdf5` file names.
+pub fn is_hdf5_name(path: &Path) -> bool {
+    let name = path.to_string_lossy().to_ascii_lowercase();
+    name.ends_with(".h5") || name.ends_with(".hdf5")
+}
+
+/// How a container file is read.
+enum Container {
+    Level5(Vec<u8>),
+    /// HDF5; true when the array order is MATLAB's (v7.3), false for numpy's (`.h5`).
+    Hdf5 {
+        matlab: bool,
+    },
+}
+
+fn container(path: &Path) -> Result<Container, ReadError> {
+    if is_hdf5_name(path) {
+        return Ok(Container::Hdf5 { matlab: false });
     }
-    Ok(bytes)
+    let bytes = read_file(path)?;
+    Ok(if is_v73(&bytes) { Container::Hdf5 { matlab: true } } else { Container::Level5(bytes) })
+}
+
+fn class_of(name: Option<&str>) -> &'static str {
+    const CLASSES: [&str; 17] = [
+        "cell",
+        "struct",
+        "object",
+        "char",
+        "sparse",
+        "double",
+        "single",
+        "int8",
+        "uint8",
+        "int16",
+        "uint16",
+        "int32",
+        "uint32",
+        "int64",
+        "uint64",
+        "logical",
+        "function_handle",
+    ];
+    match name {
+        None => "double",
+        Some(name) => CLASSES.iter().find(|&&class| class == name).copied().unwrap_or("unknown"),
+    }
+}
+
+fn hdf5_variable(info: &super::hdf5::DatasetInfo, matlab: bool) -> MatVariable {
+    let class = if info.numeric || info.matlab_class.is_some() {
+        class_of(info.matlab_class.as_deref())
+    } else {
+        "unknown"
+    };
+    let mut dims = info.shape.clone();
+    if matlab {
+        dims.reverse();
+    }
+    MatVariable { name: info.name.clone(), class, dims, numpy_order: !matlab }
+}
+
+/// A dataset as a column-major [`MatArray`]: MATLAB v7.3 arrays keep their values (HDF5 holds
+/// them with the dimensions reversed); numpy-order arrays are reordered.
+fn hdf5_array(dataset: super::hdf5::Dataset, matlab: bool) -> MatArray {
+    let info = super::hdf5::DatasetInfo {
+        name: dataset.name.clone(),
+        shape: dataset.shape.clone(),
+        numeric: true,
+        matlab_class: dataset.matlab_class.clone(),
+    };
+    let variable = hdf5_variable(&info, matlab);
+    let values =
+        if matlab { dataset.values } else { row_major_to_column_major(&dataset.shape, &dataset.values) };
+    MatArray { variable, values }
+}
+
+/// Reorders row-major values of `shape` into column-major order.
+fn row_major_to_column_major(shape: &[usize], values: &[f64]) -> Vec<f64> {
+    let axes = shape.len();
+    if axes < 2 {
+        return values.to_vec();
+    }
+    let mut strides = vec![1usize; axes];
+    for axis in 1..axes {
+        strides[axis] = strides[axis - 1] * shape[axis - 1];
+    }
+    let mut out = vec![0.0; values.len()];
+    let mut index = vec![0usize; axes];
+    for &value in values {
+        let at: usize = index.iter().zip(&strides).map(|(i, s)| i * s).sum();
+        out[at] = value;
+        for axis in (0..axes).rev() {
+            index[axis] += 1;
+            if index[axis] < shape[axis] {
+                break;
+            }
+            index[axis] = 0;
+        }
+    }
+    out
 }
 
 /// The variables of a level-5 `.mat` file, without their values.
@@ -398,7 +504,13 @@ fn read_file(path: &Path, participant: &str) -> Result<Vec<u8>, ReadError> {
 /// The file cannot be read, is not a level-5 MAT-file (v7.3 files are named as such), or is
 /// truncated or corrupt.
 pub fn list_variables(path: &Path, participant: &str) -> Result<Vec<MatVariable>, ReadError> {
-    let bytes = read_file(path, participant)?;
+    let bytes = match container(path)? {
+        Container::Level5(bytes) => bytes,
+        Container::Hdf5 { matlab } => {
+            let all = super::hdf5::list_datasets(path, participant)?;
+            return Ok(all.iter().map(|info| hdf5_variable(info, matlab)).collect());
+        }
+    };
     let mut found = Vec::new();
     walk::<()>(&bytes, |variable, _| {
         found.push(variable.clone());
@@ -415,7 +527,12 @@ pub fn list_variables(path: &Path, participant: &str) -> Result<Vec<MatVariable>
 /// name given and not exactly one numeric variable; a cell, struct, character, sparse or complex
 /// array.
 pub fn read_variable(path: &Path, participant: &str, name: Option<&str>) -> Result<MatArray, ReadError> {
-    let bytes = read_file(path, participant)?;
+    let bytes = match container(path)? {
+        Container::Level5(bytes) => bytes,
+        Container::Hdf5 { matlab } => {
+            return Ok(hdf5_array(super::hdf5::read_dataset(path, participant, name)?, matlab));
+        }
+    };
     let fail = |problem: Problem| invalid(path, participant, problem);
     let target = match name {
         Some(name) => name.to_string(),
@@ -461,7 +578,13 @@ fn only_numeric(bytes: &[u8]) -> Result<MatVariable, Problem> {
 /// # Errors
 /// As [`read_variable`].
 pub fn find_variable(path: &Path, participant: &str, name: Option<&str>) -> Result<MatVariable, ReadError> {
-    let bytes = read_file(path, participant)?;
+    let bytes = match container(path)? {
+        Container::Level5(bytes) => bytes,
+        Container::Hdf5 { .. } => {
+            // HDF5 reads only the chosen dataset, so reading it is the simplest check.
+            return Ok(read_variable(path, participant, name)?.variable);
+        }
+    };
     let fail = |problem: Problem| invalid(path, participant, problem);
     let Some(name) = name else { return only_numeric(&bytes).map_err(fail) };
     let mut variables = Vec::new();
@@ -513,8 +636,11 @@ pub fn matrix_of(
 /// Which axis of a 3D variable holds the participants: MATLAB's R x R x N (`conn(:, :, k)`,
 /// the last axis) when the first two dimensions are equal, else N x R x R (the first axis, as
 /// `scipy.io.savemat` writes a numpy stack) when the last two are.
+///
+/// For arrays from row-major files (`.h5`) the first axis wins when all three are equal.
 pub fn stack_axis(variable: &MatVariable) -> Option<usize> {
     match variable.dims.as_slice() {
+        [_, b, c] if b == c && variable.numpy_order => Some(0),
         [a, b, _] if a == b => Some(2),
         [_, b, c] if b == c => Some(0),
         _ => None,

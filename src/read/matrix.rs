@@ -73,9 +73,9 @@ fn read_npy<T: ReadableElement, D: ndarray::Dimension>(
     ndarray::Array::<T, D>::read_npy(BufReader::new(file))
 }
 
-/// True for a MATLAB `.mat` file name.
+/// True for a container file read by variable or dataset name: MATLAB `.mat`, HDF5 `.h5`/`.hdf5`.
 pub fn is_mat(path: &Path) -> bool {
-    path.to_string_lossy().to_ascii_lowercase().ends_with(".mat")
+    path.to_string_lossy().to_ascii_lowercase().ends_with(".mat") || super::mat::is_hdf5_name(path)
 }
 
 /// Reads one R x R matrix as f64 (from float32 or float64 `.npy`, or delimited text).

@@ -7,6 +7,7 @@
 
 mod cohort;
 mod error;
+pub mod hdf5;
 pub mod mat;
 pub mod matrix;
 pub mod nifti;

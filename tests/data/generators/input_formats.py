@@ -9,6 +9,10 @@ Writes tests/data/formats/* and tests/data/formats_reference.json:
   (R x R x N, MATLAB's layout) and a 5 x 6 x 6 (N x R x R) stack of correlation matrices; one
   6 x 6 matrix per participant; a 4D variable and a matrix with a NaN; with the values
   scipy.io.loadmat reads back.
+- h5/*: HDF5 written by h5py (chunked, gzip, shuffle): a 5 x 6 x 6 stack of correlation matrices
+  in a group, a float32 and an int16 matrix and a string dataset; and a MATLAB v7.3-style file
+  (HDF5 behind a 512-byte user block with MATLAB's header, MATLAB_class attributes, dimensions
+  reversed as MATLAB writes them), with the values h5py reads back.
 - counts_stack.npy: five symmetric 6 x 6 streamline-count matrices (numpy), with the upper
   triangles as they are and after numpy's log1p.
 
@@ -20,6 +24,7 @@ import pathlib
 
 import nibabel as nib
 import numpy as np
+import h5py
 import scipy
 import scipy.io
 
@@ -120,6 +125,46 @@ def mat_files(rng, reference):
     reference["mat"] = {"source": f"scipy {scipy.__version__} io.savemat / io.loadmat", "files": cases}
 
 
+def hdf5_files(rng, reference):
+    (OUT / "h5").mkdir(exist_ok=True)
+    cases = {}
+    stack = np.stack([correlation_matrix(rng, 6) for _ in PARTICIPANTS])
+    path = OUT / "h5" / "stack_chunked.h5"
+    with h5py.File(path, "w", libver="earliest") as f:
+        f.create_dataset("group/conn", data=stack, chunks=(2, 3, 3), compression="gzip", compression_opts=4, shuffle=True)
+        f.create_dataset("plain", data=(np.arange(12).reshape(3, 4) / 10.0).astype(np.float32))
+        f.create_dataset(
+            "ints", data=rng.integers(-300, 300, size=(3, 4)).astype(np.int16), chunks=(2, 2), compression="gzip", shuffle=True
+        )
+        f.create_dataset("names", data=np.array([b"left", b"right", b"middle"]))
+    with h5py.File(path, "r") as f:
+        cases["stack_chunked.h5"] = {
+            "group/conn": [m.tolist() for m in f["group/conn"][()]],
+            "plain": f["plain"][()].astype(np.float64).tolist(),
+            "ints": f["ints"][()].astype(np.float64).tolist(),
+        }
+    # MATLAB v7.3: HDF5 with a 512-byte user block that starts with MATLAB's 128-byte header; a
+    # MATLAB array of size R x R x N is stored with the dimensions reversed (N, R, R).
+    path = OUT / "h5" / "matlab_v73.mat"
+    matlab_stack = np.stack([correlation_matrix(rng, 6) for _ in PARTICIPANTS], axis=2)  # R x R x N
+    rect = np.arange(12, dtype=np.float64).reshape(3, 4) / 16.0  # MATLAB 3 x 4
+    with h5py.File(path, "w", userblock_size=512, libver="earliest") as f:
+        for name, array in [("conn", matlab_stack), ("rect", rect)]:
+            stored = np.ascontiguousarray(array.transpose())
+            d = f.create_dataset(name, data=stored, chunks=stored.shape, compression="gzip", shuffle=True)
+            d.attrs["MATLAB_class"] = np.bytes_(b"double")
+    header = b"MATLAB 7.3 MAT-file, written by strata's test generator (h5py). HDF5 schema 1.00 ."
+    with open(path, "r+b") as f:
+        f.write(header.ljust(116, b" ") + bytes(8) + b"\x00\x02" + b"IM")
+    with h5py.File(path, "r") as f:
+        back = f["conn"][()].transpose()
+        cases["matlab_v73.mat"] = {
+            "conn": [back[:, :, k].tolist() for k in range(back.shape[2])],
+            "rect": f["rect"][()].transpose().tolist(),
+        }
+    reference["hdf5"] = {"source": f"h5py {h5py.__version__} (HDF5 {h5py.version.hdf5_version})", "files": cases}
+
+
 def main():
     OUT.mkdir(exist_ok=True)
     rng = np.random.default_rng(7)
@@ -134,6 +179,7 @@ def main():
     merged_nifti(rng, reference)
     counts(rng, reference)
     mat_files(rng, reference)
+    hdf5_files(rng, reference)
     (DATA / "formats_reference.json").write_text(json.dumps(reference) + "\n")
 
 
