@@ -557,3 +557,123 @@ fn damaged_hdf5_files_give_errors_never_panics() {
         let _ = read_variable(&path, "sub-01", Some("group/conn"));
     }
 }
+
+// CIFTI-2 parcellated connectivity: .pconn.nii files written by nibabel 5.4.2 (cifti2), compared
+// with nibabel's get_fdata and the parcel names of its ParcelsAxis.
+
+fn cifti_reference(name: &str) -> Value {
+    reference()["cifti"]["files"][name].clone()
+}
+
+fn strings(value: &Value) -> Vec<String> {
+    value.as_array().unwrap().iter().map(|v| v.as_str().unwrap().to_string()).collect()
+}
+
+#[test]
+fn pconn_matrix_and_parcel_names_equal_nibabel() {
+    use strata::read::cifti::read_pconn;
+    for name in ["asymmetric.pconn.nii", "sub-01_conn.pconn.nii", "renamed.pconn.nii"] {
+        let pconn = read_pconn(&data(&format!("formats/cifti/{name}")), "sub-01").unwrap();
+        let expected = cifti_reference(name);
+        // A matrix that is not symmetric checks the storage order (row index fastest).
+        assert_matrix(&pconn.matrix, &matrix_of(&expected["matrix"]), 1e-7, name);
+        assert_eq!(pconn.parcel_names, strings(&expected["names"]), "{name}");
+    }
+    let names = read_pconn(&data("formats/cifti/sub-01_conn.pconn.nii"), "sub-01").unwrap().parcel_names;
+    assert_eq!(names[0], "Visual & Occipital");
+    assert_eq!(names[2], "Dorsal <Attention>");
+}
+
+#[test]
+fn pconn_cohort_takes_parcel_names_as_region_names() {
+    let table = read_participants(&data("formats/participants.tsv")).unwrap();
+    let inputs = InputOptions {
+        patterns: vec![data("formats/cifti/sub-*_conn.pconn.nii").display().to_string()],
+        match_column: None,
+        variable: None,
+    };
+    let cohort = discover_inputs(&inputs, &table).unwrap();
+    let features = build_features(&cohort, &options(ValueScale::Correlation)).unwrap();
+    let FeatureSpace::Edges(space) = &features.space else { panic!("edge space expected") };
+    assert_eq!(space.region_names, strings(&cifti_reference("sub-01_conn.pconn.nii")["names"]));
+    for row in 0..5 {
+        let matrix = matrix_of(&cifti_reference(&format!("sub-0{}_conn.pconn.nii", row + 1))["matrix"]);
+        let upper = (0..6).flat_map(|i| ((i + 1)..6).map(move |j| (i, j)));
+        for (column, (i, j)) in upper.enumerate() {
+            // Fisher 1921: z = atanh(r).
+            let want = matrix[i][j].atanh();
+            let got = f64::from(features.matrix.values[[row, column]]);
+            assert!((got - want).abs() <= 1e-6 * want.abs().max(1.0), "[{row}, {column}]");
+        }
+    }
+}
+
+#[test]
+fn bad_pconn_inputs_are_refused_with_their_reason() {
+    let five = ["sub-01", "sub-02", "sub-03", "sub-04", "sub-05"];
+    let run = |second: &[u8], first: Option<&[u8]>| -> String {
+        let dir = tempfile::tempdir().unwrap();
+        let first = first.map_or_else(|| bytes_of("formats/cifti/sub-01_conn.pconn.nii"), <[u8]>::to_vec);
+        std::fs::write(dir.path().join("sub-01_conn.pconn.nii"), first).unwrap();
+        std::fs::write(dir.path().join("sub-02_conn.pconn.nii"), second).unwrap();
+        mat_error(&format!("{}/sub-*_conn.pconn.nii", dir.path().display()), None, &five[..2])
+    };
+    let message = run(&bytes_of("formats/cifti/renamed.pconn.nii"), None);
+    assert!(
+        message.contains("sub-02_conn.pconn.nii: participant sub-02: parcel 4 is 'Frontoparietal' but in")
+            && message.contains("it is 'Salience \"Ventral\"'; every participant needs the same parcellation in the same order"),
+        "{message}"
+    );
+    let message = run(&bytes_of("formats/cifti/asymmetric.pconn.nii"), None);
+    assert!(message.contains("participant sub-02: 4 regions but"), "{message}");
+    // The 4 x 4 matrix is not symmetric.
+    let message = run(
+        &bytes_of("formats/cifti/sub-02_conn.pconn.nii"),
+        Some(&bytes_of("formats/cifti/asymmetric.pconn.nii")),
+    );
+    assert!(message.contains("participant sub-01: matrix is not symmetric: entry (1, 2) = 0.05000000074505806 but (2, 1) = 0.2000000029802"), "{message}");
+    // A NIfTI-1 file named .pconn.nii, a truncated one, a CIFTI file of another intent.
+    let message = run(&bytes_of("nifti/int16_scaled.nii"), None);
+    assert!(
+        message.contains("participant sub-02: not a NIfTI-2 header (sizeof_hdr is not 540)"),
+        "{message}"
+    );
+    let good = bytes_of("formats/cifti/sub-02_conn.pconn.nii");
+    let message = run(&good[..good.len() - 10], None);
+    assert!(
+        message.contains("participant sub-02: ")
+            && message.contains("bytes of data for a 6 x 6 matrix; the file is truncated"),
+        "{message}"
+    );
+    let mut dense = good.clone();
+    dense[504..508].copy_from_slice(&3001i32.to_le_bytes());
+    let message = run(&dense, None);
+    assert!(
+        message.contains("participant sub-02: NIfTI intent code 3001 is not parcellated connectivity (3003)"),
+        "{message}"
+    );
+    // NaN in a matrix.
+    let mut with_nan = good.clone();
+    let offset = i64::from_le_bytes(good[168..176].try_into().unwrap()) as usize;
+    let at = offset + 4 * (1 + 6 * 3); // element (1, 3), 0-based: row index fastest
+    with_nan[at..at + 4].copy_from_slice(&f32::NAN.to_le_bytes());
+    let message = run(&with_nan, None);
+    assert!(message.contains("participant sub-02: value NaN at row 2, column 4 (1-based)"), "{message}");
+}
+
+#[test]
+fn damaged_pconn_files_give_errors_never_panics() {
+    // Every truncation and a byte flipped at every position of a nibabel-written file.
+    use strata::read::cifti::read_pconn;
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("damaged.pconn.nii");
+    let bytes = bytes_of("formats/cifti/sub-01_conn.pconn.nii");
+    for at in 0..bytes.len() {
+        std::fs::write(&path, &bytes[..at]).unwrap();
+        assert!(read_pconn(&path, "sub-01").is_err(), "truncated at {at}");
+        let mut flipped = bytes.clone();
+        flipped[at] ^= 0xff;
+        std::fs::write(&path, &flipped).unwrap();
+        let _ = read_pconn(&path, "sub-01");
+    }
+}

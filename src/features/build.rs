@@ -8,6 +8,7 @@ use serde::Serialize;
 
 use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
+use crate::read::cifti::{is_pconn, read_pconn};
 use crate::read::matrix::{read_matrix_in, read_stack_in};
 use crate::read::nifti::{
     affines_match, format_affine, read_raw, read_raw_stack, read_volume, RawVolume, Volume, STACK_PARTICIPANT,
@@ -441,8 +442,16 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
         }
         Ok(())
     };
+    // CIFTI-2 .pconn.nii files name their parcels: the first file's names become region names
+    // and every other file must name the same parcels in the same order.
+    let mut parcel_names = None;
     let first_matrix = match &stack {
         Some(stack) => stack.index_axis(ndarray::Axis(0), 0).to_owned(),
+        None if is_pconn(&first_path) => {
+            let pconn = read_pconn(&first_path, &cohort.participant_ids[0])?;
+            parcel_names = Some(pconn.parcel_names);
+            pconn.matrix
+        }
         None => read_matrix_in(&first_path, &cohort.participant_ids[0], cohort.variable.as_deref())?,
     };
     check_square(first_matrix.dim(), &first_path, &cohort.participant_ids[0])?;
@@ -461,7 +470,10 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
             }
             names.clone()
         }
-        None => (1..=regions).map(|index| format!("region-{index:03}")).collect(),
+        None => match &parcel_names {
+            Some(names) => names.clone(),
+            None => (1..=regions).map(|index| format!("region-{index:03}")).collect(),
+        },
     };
     let width = regions * (regions - 1) / 2;
     let mut values = vec![0.0f32; participants * width];
@@ -476,7 +488,34 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
                 (Some(stack), _) => stack.index_axis(ndarray::Axis(0), row),
                 (None, 0) => first_matrix.view(),
                 (None, _) => {
-                    owned = read_matrix_in(path, participant, cohort.variable.as_deref())?;
+                    owned = match &parcel_names {
+                        Some(first_names) => {
+                            let pconn = read_pconn(path, participant)?;
+                            // Another parcel count is reported as such below.
+                            let same_count = pconn.parcel_names.len() == first_names.len();
+                            if same_count && &pconn.parcel_names != first_names {
+                                let differs = pconn
+                                    .parcel_names
+                                    .iter()
+                                    .zip(first_names)
+                                    .position(|(a, b)| a != b)
+                                    .unwrap_or(0);
+                                return Err(FeatureError::BadValue {
+                                    path: path.clone(),
+                                    participant: participant.clone(),
+                                    problem: format!(
+                                        "parcel {} is '{}' but in {} it is '{}'; every participant needs the same parcellation in the same order",
+                                        differs + 1,
+                                        pconn.parcel_names.get(differs).map_or("(none)", String::as_str),
+                                        first_path.display(),
+                                        first_names.get(differs).map_or("(none)", String::as_str)
+                                    ),
+                                });
+                            }
+                            pconn.matrix
+                        }
+                        None => read_matrix_in(path, participant, cohort.variable.as_deref())?,
+                    };
                     check_square(owned.dim(), path, participant)?;
                     if owned.nrows() != regions {
                         return Err(FeatureError::RegionCountMismatch {

@@ -60,7 +60,9 @@ pub struct Cohort {
 /// The input kind of a file, from its name.
 pub fn kind_of(path: &Path) -> Option<InputKind> {
     let name = path.file_name()?.to_string_lossy().to_ascii_lowercase();
-    if name.ends_with(".nii") || name.ends_with(".nii.gz") {
+    if name.ends_with(".pconn.nii") {
+        Some(InputKind::RegionMatrices)
+    } else if name.ends_with(".nii") || name.ends_with(".nii.gz") {
         Some(InputKind::SeedMaps)
     } else if [".npy", ".csv", ".tsv", ".txt", ".mat", ".h5", ".hdf5"]
         .iter()
@@ -144,7 +146,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     for file in &files {
         let this = kind_of(file).ok_or_else(|| ReadError::Format {
             path: file.clone(),
-            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt/.mat/.h5/.hdf5 region matrices".into(),
+            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt/.mat/.h5/.hdf5/.pconn.nii region matrices".into(),
         })?;
         match kind {
             None => kind = Some(this),

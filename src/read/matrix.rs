@@ -97,7 +97,9 @@ pub fn read_matrix_in(
     variable: Option<&str>,
 ) -> Result<Array2<f64>, ReadError> {
     let name = path.to_string_lossy().to_ascii_lowercase();
-    if is_mat(path) {
+    if super::cifti::is_pconn(path) {
+        Ok(super::cifti::read_pconn(path, participant)?.matrix)
+    } else if is_mat(path) {
         let array = super::mat::read_variable(path, participant, variable)?;
         super::mat::matrix_of(&array, path, participant)
     } else if name.ends_with(".npy") {

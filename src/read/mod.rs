@@ -5,6 +5,7 @@
 //! per-format readers of this module one participant at a time (in parallel). This module knows
 //! file formats; it knows nothing of masks, Fisher z or similarity.
 
+pub mod cifti;
 mod cohort;
 mod error;
 pub mod hdf5;

@@ -13,6 +13,10 @@ Writes tests/data/formats/* and tests/data/formats_reference.json:
   in a group, a float32 and an int16 matrix and a string dataset; and a MATLAB v7.3-style file
   (HDF5 behind a 512-byte user block with MATLAB's header, MATLAB_class attributes, dimensions
   reversed as MATLAB writes them), with the values h5py reads back.
+- cifti/*.pconn.nii: CIFTI-2 parcellated connectivity written by nibabel (NIfTI-2 header plus
+  the CIFTI XML extension): one symmetric 6 x 6 matrix per participant over six named parcels
+  (names with XML special characters), a 4 x 4 matrix that is not symmetric (storage order),
+  and a file whose parcels are named differently; with nibabel's matrix and parcel names.
 - counts_stack.npy: five symmetric 6 x 6 streamline-count matrices (numpy), with the upper
   triangles as they are and after numpy's log1p.
 
@@ -165,6 +169,44 @@ def hdf5_files(rng, reference):
     reference["hdf5"] = {"source": f"h5py {h5py.__version__} (HDF5 {h5py.version.hdf5_version})", "files": cases}
 
 
+PARCELS = ["Visual & Occipital", "Somatomotor", "Dorsal <Attention>", "Salience \"Ventral\"", "Limbic", "Default"]
+
+
+def save_pconn(path, matrix, names):
+    from nibabel.cifti2 import cifti2_axes
+
+    count = len(names)
+    parcels = cifti2_axes.ParcelsAxis(
+        names,
+        [np.array([[i, 0, 0]]) for i in range(count)],
+        [{} for _ in range(count)],
+        affine=np.eye(4),
+        volume_shape=(count, 1, 1),
+        nvertices={},
+    )
+    image = nib.Cifti2Image(matrix, header=(parcels, parcels))
+    image.nifti_header.set_intent("ConnParcels")
+    nib.save(image, path)
+    back = nib.load(path)
+    return {
+        "matrix": np.asarray(back.get_fdata(), dtype=np.float64).tolist(),
+        "names": [str(n) for n in back.header.get_axis(0).name],
+    }
+
+
+def cifti_files(rng, reference):
+    (OUT / "cifti").mkdir(exist_ok=True)
+    cases = {}
+    for participant in PARTICIPANTS:
+        name = f"{participant}_conn.pconn.nii"
+        cases[name] = save_pconn(OUT / "cifti" / name, correlation_matrix(rng, 6).astype(np.float32), PARCELS)
+    asymmetric = (np.arange(16, dtype=np.float32).reshape(4, 4) / 20.0).astype(np.float32)
+    cases["asymmetric.pconn.nii"] = save_pconn(OUT / "cifti" / "asymmetric.pconn.nii", asymmetric, PARCELS[:4])
+    renamed = PARCELS[:3] + ["Frontoparietal"] + PARCELS[4:]
+    cases["renamed.pconn.nii"] = save_pconn(OUT / "cifti" / "renamed.pconn.nii", correlation_matrix(rng, 6).astype(np.float32), renamed)
+    reference["cifti"] = {"source": f"nibabel {nib.__version__} cifti2", "files": cases}
+
+
 def main():
     OUT.mkdir(exist_ok=True)
     rng = np.random.default_rng(7)
@@ -180,6 +222,7 @@ def main():
     counts(rng, reference)
     mat_files(rng, reference)
     hdf5_files(rng, reference)
+    cifti_files(rng, reference)
     (DATA / "formats_reference.json").write_text(json.dumps(reference) + "\n")
 
 
