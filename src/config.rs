@@ -102,6 +102,11 @@ pub struct RunConfig {
     pub transform: Transform,
     /// The variable read from MATLAB `.mat` inputs (None: each file's only numeric variable).
     pub variable: Option<String>,
+    /// Measure columns (of the participants table, or of `measures_table`) in place of inputs.
+    pub measures: Vec<String>,
+    /// A separate measures table keyed by `participant_id` (all numeric columns when
+    /// `measures` is empty).
+    pub measures_table: Option<PathBuf>,
     /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions.
     pub atlas: Option<PathBuf>,
     /// How the sweep's graphs are cut from the similarity matrix.
@@ -295,6 +300,8 @@ impl RunConfig {
             values: Values::R,
             transform: Transform::None,
             variable: None,
+            measures: Vec::new(),
+            measures_table: None,
             atlas: None,
             graph: GraphRule::Density,
             densities: DEFAULT_DENSITIES.to_vec(),
@@ -313,9 +320,26 @@ impl RunConfig {
         }
     }
 
+    /// True when the run analyses a measure table rather than input files.
+    pub fn uses_measures(&self) -> bool {
+        !self.measures.is_empty() || self.measures_table.is_some()
+    }
+
     /// Checks cross-flag rules; every message names the flags involved.
     pub fn validate(self) -> Result<Self, ConfigError> {
-        if self.inputs.is_empty() && self.similarity.is_none() {
+        if self.uses_measures() && (!self.inputs.is_empty() || self.similarity.is_some()) {
+            return Err(invalid(
+                "--measures",
+                "takes the place of --inputs and --similarity; give one kind of input per run",
+            ));
+        }
+        if self.uses_measures() && self.values != Values::R {
+            return Err(invalid(
+                "--values",
+                "does not apply to measures (they are standardised, never Fisher-transformed); drop --values",
+            ));
+        }
+        if self.inputs.is_empty() && self.similarity.is_none() && !self.uses_measures() {
             return Err(invalid(
                 "--inputs",
                 "no input given; for example --inputs 'maps/sub-*_seedmap.nii.gz'",

@@ -141,12 +141,19 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     let mut timings = Timings::default();
     let output = OutputFolder::prepare(&config.out, config.force)?;
 
+    let mut missing_measures = Vec::new();
     let (cohort, groups, given_similarity) = timings.time(log, "read", || -> Result<_, Error> {
         let table = read::read_participants(&config.participants)?;
         let (cohort, given) = match &config.similarity {
             Some(path) => {
                 let (cohort, values) = read::read_similarity(path, &table)?;
                 (cohort, Some(SimilarityMatrix { values }))
+            }
+            None if config.uses_measures() => {
+                let (cohort, missing) =
+                    read::discover_measures(&table, &config.measures, config.measures_table.as_deref())?;
+                missing_measures = missing;
+                (cohort, None)
             }
             None => {
                 let options = InputOptions {
@@ -227,6 +234,11 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     let measured = timings.time(log, "graph measures", || measure_graph(config, &similarity, &communities));
 
     let mut warnings = Vec::new();
+    if !missing_measures.is_empty() {
+        warnings.push(Warning::MissingMeasures {
+            entries: missing_measures.iter().map(|m| (m.participant.clone(), m.column.clone())).collect(),
+        });
+    }
     collect_community_warnings(&cohort, &communities, config, &mut warnings);
     let missing: Vec<String> = groups
         .labels
@@ -562,6 +574,7 @@ pub fn describe_feature(space: &FeatureSpace, index: usize) -> String {
             let (i, j) = edges.edge(index);
             format!("{} - {}", edges.region_names[i], edges.region_names[j])
         }
+        FeatureSpace::Measures(measures) => measures.names.get(index).cloned().unwrap_or_default(),
     }
 }
 
@@ -605,6 +618,7 @@ fn build_summary(
         Some(space @ FeatureSpace::Edges(edges)) => {
             format!("{} regions, {} edges", edges.region_count, space.feature_count())
         }
+        Some(FeatureSpace::Measures(measures)) => format!("{} standardised measures", measures.names.len()),
         None => "a precomputed similarity matrix".to_string(),
     };
     RunSummary {
@@ -613,6 +627,7 @@ fn build_summary(
         input_kind: match features.map(|features| &features.space) {
             Some(FeatureSpace::Voxels(_)) => "seed_maps".into(),
             Some(FeatureSpace::Edges(_)) => "region_matrices".into(),
+            Some(FeatureSpace::Measures(_)) => "measures".into(),
             None => "similarity_matrix".into(),
         },
         participant_count: cohort.participant_ids.len(),

@@ -677,3 +677,111 @@ fn damaged_pconn_files_give_errors_never_panics() {
         let _ = read_pconn(&path, "sub-01");
     }
 }
+
+// Measure tables: standardised scores against scipy 1.17.1 stats.zscore(ddof=1) of the complete
+// participants (tests/data/generators/input_formats.py).
+
+#[test]
+fn measures_are_standardised_like_scipy_and_missing_values_named() {
+    use strata::read::{discover_measures, MissingMeasure};
+    let reference = reference();
+    let expected = &reference["measures"];
+    let names = strings(&expected["names"]);
+    let table = read_participants(&data("formats/measures/participants.tsv")).unwrap();
+    for file in [None, Some(data("formats/measures/scores.tsv"))] {
+        // From the participants table (columns named) and from the separate table (all numeric
+        // columns: the text column 'site' is left out).
+        let columns = if file.is_none() { names.clone() } else { Vec::new() };
+        let (cohort, missing) = discover_measures(&table, &columns, file.as_deref()).unwrap();
+        assert_eq!(missing, [MissingMeasure { participant: "sub-05".into(), column: "attention".into() }]);
+        assert_eq!(cohort.participant_ids, strings(&expected["participants"]));
+        let features = build_features(&cohort, &options(ValueScale::Correlation)).unwrap();
+        let FeatureSpace::Measures(space) = &features.space else { panic!("measure space expected") };
+        assert_eq!(space.names, names);
+        for (row, want) in expected["zscores"].as_array().unwrap().iter().enumerate() {
+            for (column, want) in numbers(want).into_iter().enumerate() {
+                let got = f64::from(features.matrix.values[[row, column]]);
+                assert!((got - want).abs() <= 1e-6, "{file:?} [{row}, {column}]: {got} vs {want}");
+            }
+        }
+    }
+}
+
+#[test]
+fn bad_measure_tables_are_refused_with_their_reason() {
+    use strata::read::discover_measures;
+    let table = read_participants(&data("formats/measures/participants.tsv")).unwrap();
+    let message = discover_measures(&table, &[], None).unwrap_err().to_string();
+    assert!(
+        message.contains(
+            "--measures needs column names when the measures are columns of the participants table"
+        ),
+        "{message}"
+    );
+    let message = discover_measures(&table, &["memory".into(), "mood".into()], None).unwrap_err().to_string();
+    assert!(
+        message.contains(
+            "no column 'mood'; the table has: participant_id, diagnosis, memory, attention, sleep_hours"
+        ),
+        "{message}"
+    );
+    let message =
+        discover_measures(&table, &["memory".into(), "diagnosis".into()], None).unwrap_err().to_string();
+    assert!(message.contains("participant sub-01: column 'diagnosis' holds 'control', not a number; write n/a for a missing value"), "{message}");
+    let message = discover_measures(&table, &["memory".into()], None).unwrap_err().to_string();
+    assert!(
+        message.contains("1 measure column(s) (memory); a profile needs at least two measures"),
+        "{message}"
+    );
+    // A participant of the table missing from the separate file; a constant measure.
+    let dir = tempfile::tempdir().unwrap();
+    let scores = dir.path().join("scores.tsv");
+    std::fs::write(&scores, "participant_id\ta\tb\nsub-01\t1\t5\n").unwrap();
+    let message = discover_measures(&table, &[], Some(&scores)).unwrap_err().to_string();
+    assert!(message.contains("participant sub-02 of the participants table has no row here"), "{message}");
+    let text: String = (1..=12).map(|k| format!("sub-{k:02}\t{k}\t3\n")).collect();
+    std::fs::write(&scores, format!("participant_id\ta\tb\n{text}")).unwrap();
+    let (cohort, _) = discover_measures(&table, &[], Some(&scores)).unwrap();
+    let message = build_features(&cohort, &options(ValueScale::Correlation)).unwrap_err().to_string();
+    assert!(message.contains("measure 'b' has the same value for every analysed participant"), "{message}");
+}
+
+#[test]
+fn a_measures_run_writes_profiles_and_warns_by_name() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("results");
+    let output = std::process::Command::new(env!("CARGO_BIN_EXE_strata"))
+        .args(["run", "--participants"])
+        .arg(data("formats/measures/participants.tsv"))
+        .args(["--measures", "memory,attention,sleep_hours", "--group-column", "diagnosis"])
+        .args(["--contrast", "insomnia,control", "--trials", "2", "--random-graphs", "0", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(output.status.success(), "{stderr}");
+    assert!(
+        stderr.contains(
+            "1 participant(s) left out of the analysis for missing measure values: sub-05 (attention)"
+        ),
+        "{stderr}"
+    );
+    // docs/outputs.md: the whole cohort's t map, as a profile table for measures.
+    let profile =
+        std::fs::read_to_string(out.join("maps/comm-all_contrast-insomniaVsControl_t.tsv")).unwrap();
+    let lines: Vec<&str> = profile.lines().collect();
+    assert_eq!(lines[0], "measure\tvalue");
+    assert_eq!(lines.len(), 4, "{profile}");
+    assert!(lines[1].starts_with("memory\t") && lines[3].starts_with("sleep_hours\t"), "{profile}");
+    // scipy.stats.ttest_ind(equal_var=False) of the raw scores, insomnia minus control.
+    let reference = reference();
+    let welch = numbers(&reference["measures"]["welch_t"]);
+    for (line, (name, want)) in
+        lines[1..].iter().zip(["memory", "attention", "sleep_hours"].iter().zip(welch))
+    {
+        let (measure, value) = line.split_once('\t').unwrap();
+        assert_eq!(measure, *name);
+        let got: f64 = value.parse().unwrap();
+        assert!((got - want).abs() <= 1e-5 * want.abs().max(1.0), "{name}: {got} vs {want}");
+    }
+}

@@ -162,7 +162,7 @@ pub struct RunArgs {
     #[arg(
         long,
         value_name = "GLOB",
-        required_unless_present = "similarity",
+        required_unless_present_any = ["similarity", "measures", "measures_table"],
         value_delimiter = ',',
         help_heading = "Inputs"
     )]
@@ -196,6 +196,15 @@ pub struct RunArgs {
     /// cohort (MATLAB R x R x N, numpy/HDF5 N x R x R). Default: the file's only numeric array.
     #[arg(long, visible_alias = "dataset", value_name = "NAME", help_heading = "Inputs")]
     pub variable: Option<String>,
+    /// Measures in place of --inputs: columns of the participants table (or of
+    /// --measures-table) holding scores, for example memory,attention. Each is standardised
+    /// across participants; participants with a missing value (n/a) are left out with a warning.
+    #[arg(long, value_name = "COL,...", value_delimiter = ',', conflicts_with_all = ["inputs", "similarity"], help_heading = "Inputs")]
+    pub measures: Vec<String>,
+    /// A separate measures table (TSV, first column participant_id); without --measures, all
+    /// its numeric columns are used.
+    #[arg(long, value_name = "TSV", conflicts_with_all = ["inputs", "similarity"], help_heading = "Inputs")]
+    pub measures_table: Option<PathBuf>,
     /// Atlas table naming the regions of matrices: TSV with columns index, name (and optionally
     /// network), one row per region in matrix order.
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
@@ -306,6 +315,8 @@ impl RunArgs {
             values: self.values,
             transform: self.transform,
             variable: self.variable,
+            measures: self.measures,
+            measures_table: self.measures_table,
             atlas: self.atlas,
             method: self.method,
             trials: self.trials,

@@ -7,7 +7,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
-use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
+use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, MeasureSpace, VoxelSpace};
 use crate::read::cifti::{is_pconn, read_pconn};
 use crate::read::matrix::{read_matrix_in, read_stack_in};
 use crate::read::nifti::{
@@ -128,6 +128,7 @@ pub fn build_features(cohort: &Cohort, options: &FeatureOptions) -> Result<Featu
         InputKind::SeedMaps => build_voxels(cohort, options)?,
         InputKind::RegionMatrices => build_edges(cohort, options)?,
         InputKind::Similarity => return Err(FeatureError::NoFeatures),
+        InputKind::Measures => build_measures(cohort)?,
     };
     check_not_constant(cohort, &features.matrix)?;
     Ok(features)
@@ -550,6 +551,101 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
     Ok(Features {
         matrix,
         space: FeatureSpace::Edges(EdgeSpace { region_count: regions, region_names }),
+        summary,
+    })
+}
+
+/// Standardises each measure (column) of an N x M row-major table: z = (x - mean) / sd with the
+/// sample standard deviation (n - 1 denominator), in f64.
+///
+/// # Arguments
+/// `values`: N x M, row-major; `measures`: M.
+///
+/// # Returns
+/// The standardised values (f32) and each measure's mean and standard deviation; Err(column)
+/// for the first constant measure (SD at most [`CONSTANT_MEASURE_TOLERANCE`] times its mean's
+/// magnitude, or 1).
+///
+/// # Complexity
+/// O(N M) time, O(M) extra memory.
+pub fn standardise_measures(values: &[f64], measures: usize) -> Result<Standardised, usize> {
+    let rows = values.len() / measures.max(1);
+    let mut means = vec![0.0; measures];
+    for row in values.chunks_exact(measures) {
+        for (mean, &value) in means.iter_mut().zip(row) {
+            *mean += value;
+        }
+    }
+    means.iter_mut().for_each(|mean| *mean /= rows as f64);
+    let mut deviations = vec![0.0; measures];
+    for row in values.chunks_exact(measures) {
+        for ((sum, &value), mean) in deviations.iter_mut().zip(row).zip(&means) {
+            *sum += (value - mean) * (value - mean);
+        }
+    }
+    let denominator = rows.saturating_sub(1).max(1) as f64;
+    let deviations: Vec<f64> = deviations.into_iter().map(|sum| (sum / denominator).sqrt()).collect();
+    let constant = |(sd, mean): (&f64, &f64)| {
+        sd.is_nan() || *sd <= CONSTANT_MEASURE_TOLERANCE * mean.abs().max(1.0) || !sd.is_finite()
+    };
+    if let Some(column) = deviations.iter().zip(&means).position(constant) {
+        return Err(column);
+    }
+    let values = values
+        .chunks_exact(measures)
+        .flat_map(|row| row.iter().zip(&means).zip(&deviations).map(|((v, m), s)| ((v - m) / s) as f32))
+        .collect();
+    Ok(Standardised { values, means, standard_deviations: deviations })
+}
+
+/// A measure whose sample SD is at most this fraction of its mean's magnitude (or of 1) is taken
+/// as constant: rounding of identical values in the mean leaves an SD near 1e-16 relative
+/// (f64 resolution; common practice).
+pub const CONSTANT_MEASURE_TOLERANCE: f64 = 1e-12;
+
+/// Standardised measures and what was removed from them.
+#[derive(Debug, Clone)]
+pub struct Standardised {
+    /// N x M standardised values, row-major, f32.
+    pub values: Vec<f32>,
+    /// Each measure's mean.
+    pub means: Vec<f64>,
+    /// Each measure's sample standard deviation (n - 1).
+    pub standard_deviations: Vec<f64>,
+}
+
+fn build_measures(cohort: &Cohort) -> Result<Features, FeatureError> {
+    let measures = cohort.measures.as_ref().ok_or(FeatureError::NoFeatures)?;
+    let width = measures.names.len();
+    let participants = cohort.participant_ids.len();
+    let Standardised { values, means, standard_deviations } =
+        standardise_measures(&measures.values, width).map_err(|column| FeatureError::BadValue {
+            path: measures.path.clone(),
+            participant: "(every participant)".into(),
+            problem: format!(
+                "measure '{}' has the same value for every analysed participant; it cannot be standardised: leave it out of --measures",
+                measures.names[column]
+            ),
+        })?;
+    let matrix = FeatureMatrix {
+        values: Array2::from_shape_vec((participants, width), values)
+            .expect("rows x measures by construction"),
+    };
+    let summary = FeatureSummary {
+        participants,
+        features: width,
+        voxels_outside_mask: 0,
+        voxels_dropped: 0,
+        clipped_values: 0,
+        fisher_z_clip: FISHER_Z_CLIP,
+    };
+    Ok(Features {
+        matrix,
+        space: FeatureSpace::Measures(MeasureSpace {
+            names: measures.names.clone(),
+            means,
+            standard_deviations,
+        }),
         summary,
     })
 }

@@ -30,6 +30,8 @@ pub enum InputKind {
     RegionMatrices,
     /// A precomputed N x N participant similarity matrix: no features, similarity only.
     Similarity,
+    /// Participants x measures from a table (scores): standardised, no Fisher z.
+    Measures,
 }
 
 /// Where one participant's values are stored.
@@ -55,6 +57,8 @@ pub struct Cohort {
     pub kind: InputKind,
     /// The variable read from MATLAB `.mat` inputs (None: each file's only numeric variable).
     pub variable: Option<String>,
+    /// The values of a measures run (participants x measures), already read.
+    pub measures: Option<super::measures::MeasureValues>,
 }
 
 /// The input kind of a file, from its name.
@@ -241,6 +245,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             sources,
             kind,
             variable: options.variable.clone(),
+            measures: None,
         });
     }
 
@@ -337,6 +342,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             .collect(),
         kind,
         variable: options.variable.clone(),
+        measures: None,
     })
 }
 
@@ -345,6 +351,7 @@ fn describe(kind: InputKind) -> &'static str {
         InputKind::SeedMaps => "NIfTI seed map",
         InputKind::RegionMatrices => "region matrix",
         InputKind::Similarity => "similarity matrix",
+        InputKind::Measures => "measure table",
     }
 }
 

@@ -11,11 +11,13 @@ mod error;
 pub mod hdf5;
 pub mod mat;
 pub mod matrix;
+pub mod measures;
 pub mod nifti;
 mod similarity;
 mod table;
 
 pub use cohort::{discover_inputs, Cohort, InputKind, InputOptions, InputSource};
 pub use error::ReadError;
+pub use measures::{discover_measures, MeasureValues, MissingMeasure};
 pub use similarity::read_similarity;
 pub use table::{read_participants, read_table, ParticipantsTable};

@@ -17,6 +17,9 @@ Writes tests/data/formats/* and tests/data/formats_reference.json:
   the CIFTI XML extension): one symmetric 6 x 6 matrix per participant over six named parcels
   (names with XML special characters), a 4 x 4 matrix that is not symmetric (storage order),
   and a file whose parcels are named differently; with nibabel's matrix and parcel names.
+- measures/participants.tsv and measures/scores.tsv: a participants table with score columns
+  and a separate scores table (one missing value, one text column), with scipy.stats.zscore
+  (ddof=1) of the complete participants' scores.
 - counts_stack.npy: five symmetric 6 x 6 streamline-count matrices (numpy), with the upper
   triangles as they are and after numpy's log1p.
 
@@ -31,6 +34,7 @@ import numpy as np
 import h5py
 import scipy
 import scipy.io
+import scipy.stats
 
 DATA = pathlib.Path(__file__).resolve().parents[1]
 OUT = DATA / "formats"
@@ -207,6 +211,46 @@ def cifti_files(rng, reference):
     reference["cifti"] = {"source": f"nibabel {nib.__version__} cifti2", "files": cases}
 
 
+def measure_tables(rng, reference):
+    (OUT / "measures").mkdir(exist_ok=True)
+    ids = [f"sub-{k:02d}" for k in range(1, 13)]
+    scores = np.round(rng.normal([100, 50, 10], [15, 10, 3], size=(len(ids), 3)), 1)
+    groups = ["insomnia" if k % 2 else "control" for k in range(len(ids))]
+    lines = ["participant_id\tdiagnosis\tmemory\tattention\tsleep_hours"]
+    for k, pid in enumerate(ids):
+        cells = [f"{v:.1f}" for v in scores[k]]
+        if k == 4:
+            cells[1] = "n/a"
+        lines.append("\t".join([pid, groups[k]] + cells))
+    (OUT / "measures" / "participants.tsv").write_text("\n".join(lines) + "\n")
+    # The separate table lists the participants in another order and has a text column.
+    lines = ["participant_id\tmemory\tsite\tattention\tsleep_hours"]
+    for k in reversed(range(len(ids))):
+        cells = [f"{v:.1f}" for v in scores[k]]
+        if k == 4:
+            cells[1] = "n/a"
+        lines.append("\t".join([ids[k], cells[0], "north" if k % 3 else "south", cells[1], cells[2]]))
+    (OUT / "measures" / "scores.tsv").write_text("\n".join(lines) + "\n")
+    complete = [k for k in range(len(ids)) if k != 4]
+    z = scipy.stats.zscore(scores[complete], axis=0, ddof=1)
+    reference["measures"] = {
+        "source": f"scipy {scipy.__version__} stats.zscore(ddof=1)",
+        "participants": [ids[k] for k in complete],
+        "names": ["memory", "attention", "sleep_hours"],
+        "zscores": z.tolist(),
+        "missing": [[ids[4], "attention"]],
+        # Welch t of insomnia minus control per measure (standardising does not change t).
+        "welch_t": [
+            float(scipy.stats.ttest_ind(
+                scores[[k for k in complete if groups[k] == "insomnia"], m],
+                scores[[k for k in complete if groups[k] == "control"], m],
+                equal_var=False,
+            ).statistic)
+            for m in range(3)
+        ],
+    }
+
+
 def main():
     OUT.mkdir(exist_ok=True)
     rng = np.random.default_rng(7)
@@ -223,6 +267,7 @@ def main():
     mat_files(rng, reference)
     hdf5_files(rng, reference)
     cifti_files(rng, reference)
+    measure_tables(rng, reference)
     (DATA / "formats_reference.json").write_text(json.dumps(reference) + "\n")
 
 
