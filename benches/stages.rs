@@ -14,7 +14,7 @@ use std::time::Instant;
 use ndarray::{Array2, Array3};
 use rayon::prelude::*;
 use strata::demo::{write_participants_tsv, Scenario};
-use strata::features::{build_features, FeatureMatrix, FeatureOptions, ValueScale};
+use strata::features::{build_features, FeatureMatrix, FeatureOptions, ValueScale, ValueTransform};
 use strata::read::{discover_inputs, read_participants, InputOptions};
 use strata::similarity::{pearson, standardise_rows};
 
@@ -70,8 +70,11 @@ fn inputs(dir: &Path) -> (strata::read::Cohort, Vec<PathBuf>) {
     let table = read_participants(&dir.join("participants.tsv")).unwrap();
     let pattern =
         if dir.join("maps").exists() { "maps/sub-*_seedmap.nii.gz" } else { "matrices/sub-*_conn.npy" };
-    let options =
-        InputOptions { patterns: vec![dir.join(pattern).to_string_lossy().into_owned()], match_column: None };
+    let options = InputOptions {
+        patterns: vec![dir.join(pattern).to_string_lossy().into_owned()],
+        match_column: None,
+        variable: None,
+    };
     let cohort = discover_inputs(&options, &table).unwrap();
     let files = cohort.sources.iter().map(|source| source.path.clone()).collect();
     (cohort, files)
@@ -86,7 +89,12 @@ fn similarity(dir: &Path) {
     let started = Instant::now();
     let features = build_features(
         &cohort,
-        &FeatureOptions { mask: None, values: ValueScale::Correlation, region_names: None },
+        &FeatureOptions {
+            mask: None,
+            values: ValueScale::Correlation,
+            transform: ValueTransform::None,
+            region_names: None,
+        },
     )
     .unwrap();
     let read_seconds = started.elapsed().as_secs_f64();

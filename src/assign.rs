@@ -18,7 +18,7 @@ use thiserror::Error;
 
 use crate::communities::Partition;
 use crate::error::Error as RunError;
-use crate::features::{FeatureMatrix, FeatureOptions, FeatureSpace, ValueScale};
+use crate::features::{FeatureMatrix, FeatureOptions, FeatureSpace, ValueScale, ValueTransform};
 use crate::maps::WriteError;
 use crate::read::{Cohort, InputKind, InputSource};
 use crate::report::tables::format_number;
@@ -44,8 +44,14 @@ pub struct AssignmentModel {
     pub strata_version: String,
     /// `seed_maps` or `region_matrices`.
     pub input_kind: String,
-    /// `r` (Fisher z applied) or `z` (used as given).
+    /// `r` (Fisher z applied), `z` (used as given) or `raw` (no range check, no Fisher z).
     pub values: String,
+    /// `none` or `log1p`, applied to raw values first.
+    #[serde(default = "no_transform")]
+    pub transform: String,
+    /// The MATLAB / HDF5 variable the inputs were read from, if one was named.
+    #[serde(default)]
+    pub variable: Option<String>,
     /// Features per participant.
     pub feature_count: usize,
     /// Grid dimensions of seed maps.
@@ -62,6 +68,21 @@ pub struct AssignmentModel {
     pub training_margins: Vec<f64>,
     /// Sorted leave-one-out similarities of the training participants to their own centroid.
     pub training_similarities: Vec<f64>,
+}
+
+fn no_transform() -> String {
+    "none".to_string()
+}
+
+/// How the run turned input values into features; new participants are read the same way.
+#[derive(Debug, Clone)]
+pub struct Preprocessing {
+    /// The value scale (`--values`).
+    pub values: ValueScale,
+    /// The transform of raw values (`--transform`).
+    pub transform: ValueTransform,
+    /// The MATLAB / HDF5 variable (`--variable`).
+    pub variable: Option<String>,
 }
 
 /// One new participant's placement.
@@ -89,7 +110,7 @@ pub struct Assignment {
 #[derive(Debug, Error)]
 pub enum AssignError {
     /// The run folder has no assignment model.
-    #[error("{path}: no assignment model; pass the output folder of a `strata run` on seed maps or region matrices (runs on a precomputed similarity matrix save none), or rerun with strata {version} or later")]
+    #[error("{path}: no assignment model; pass the output folder of a `strata run` on seed maps or region matrices (runs on a precomputed similarity matrix or on measure tables save none), or rerun with strata {version} or later")]
     NoModel {
         /// The expected model file.
         path: PathBuf,
@@ -243,7 +264,9 @@ fn training_references(
     (similarities, margins)
 }
 
-/// Writes `assignment/` into a run's output folder (`dir` is the staging folder).
+/// Writes `assignment/` into a run's output folder (`dir` is the staging folder). Runs on
+/// measure tables save none: their features are standardised across the run's participants,
+/// which a new participant cannot repeat alone.
 ///
 /// # Errors
 /// Any file that cannot be written.
@@ -252,8 +275,11 @@ pub fn write_model(
     matrix: &FeatureMatrix,
     space: &FeatureSpace,
     partition: &Partition,
-    values: ValueScale,
+    preprocessing: &Preprocessing,
 ) -> Result<(), RunError> {
+    if matches!(space, FeatureSpace::Measures(_)) {
+        return Ok(());
+    }
     let folder = dir.join(MODEL_FOLDER);
     std::fs::create_dir_all(&folder).map_err(|source| WriteError::Io { path: folder.clone(), source })?;
     let (centroid_rows, sizes) = centroids(matrix, partition);
@@ -268,15 +294,22 @@ pub fn write_model(
             (Some(voxels.dim), Some(voxels.affine), None, "seed_maps")
         }
         FeatureSpace::Edges(edges) => (None, None, Some(edges.region_count), "region_matrices"),
+        FeatureSpace::Measures(_) => return Ok(()),
     };
     let model = AssignmentModel {
         format_version: MODEL_FORMAT_VERSION,
         strata_version: crate::VERSION.to_string(),
         input_kind: input_kind.to_string(),
-        values: match values {
+        values: match preprocessing.values {
             ValueScale::Correlation => "r".to_string(),
             ValueScale::FisherZ => "z".to_string(),
+            ValueScale::Raw => "raw".to_string(),
         },
+        transform: match preprocessing.transform {
+            ValueTransform::None => "none".to_string(),
+            ValueTransform::Log1p => "log1p".to_string(),
+        },
+        variable: preprocessing.variable.clone(),
         feature_count: matrix.feature_count(),
         grid,
         affine,
@@ -453,6 +486,8 @@ pub fn assign(options: &AssignOptions) -> Result<Vec<Assignment>, RunError> {
         participant_ids: ids.clone(),
         sources: files.iter().map(|path| InputSource { path: path.clone(), stack_index: None }).collect(),
         kind,
+        variable: model.variable.clone(),
+        measures: None,
     };
     if let (InputKind::SeedMaps, Some(grid), Some(affine)) = (kind, model.grid, model.affine) {
         let volume = crate::read::read_volume(&files[0], &ids[0])?;
@@ -481,7 +516,12 @@ pub fn assign(options: &AssignOptions) -> Result<Vec<Assignment>, RunError> {
     }
     let feature_options = FeatureOptions {
         mask: (kind == InputKind::SeedMaps).then(|| options.run.join(MODEL_FOLDER).join("mask.nii.gz")),
-        values: if model.values == "z" { ValueScale::FisherZ } else { ValueScale::Correlation },
+        values: match model.values.as_str() {
+            "z" => ValueScale::FisherZ,
+            "raw" => ValueScale::Raw,
+            _ => ValueScale::Correlation,
+        },
+        transform: if model.transform == "log1p" { ValueTransform::Log1p } else { ValueTransform::None },
         region_names: None,
     };
     let features = crate::features::build_features(&cohort, &feature_options)?;

@@ -482,9 +482,16 @@ fn check_matching(
     const NAME: &str = "matching";
     let result = match &config.similarity {
         Some(path) => read::read_similarity(path, table).map(|(cohort, values)| (cohort, Some(values))),
+        None if config.uses_measures() => {
+            read::discover_measures(table, &config.measures, config.measures_table.as_deref())
+                .map(|(cohort, _missing)| (cohort, None))
+        }
         None => {
-            let options =
-                InputOptions { patterns: config.inputs.clone(), match_column: config.match_column.clone() };
+            let options = InputOptions {
+                patterns: config.inputs.clone(),
+                match_column: config.match_column.clone(),
+                variable: config.variable.clone(),
+            };
             read::discover_inputs(&options, table).map(|cohort| (cohort, None))
         }
     };
@@ -495,6 +502,7 @@ fn check_matching(
                 InputKind::SeedMaps => "seed maps",
                 InputKind::RegionMatrices => "region matrices",
                 InputKind::Similarity => "a precomputed similarity matrix",
+                InputKind::Measures => "measure table",
             };
             let found = match (&similarity, counts) {
                 (Some(values), _) => {
@@ -638,6 +646,11 @@ fn check_features(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Findin
         values: match config.values {
             Values::R => ValueScale::Correlation,
             Values::Z => ValueScale::FisherZ,
+            Values::Raw => ValueScale::Raw,
+        },
+        transform: match config.transform {
+            crate::config::Transform::None => crate::features::ValueTransform::None,
+            crate::config::Transform::Log1p => crate::features::ValueTransform::Log1p,
         },
         region_names,
     };

@@ -59,6 +59,19 @@ pub enum Values {
     R,
     /// Already Fisher z: used as they are, without range check.
     Z,
+    /// Not correlations (streamline counts, fibre densities, any other measure): used as they
+    /// are, without range check and without Fisher z.
+    Raw,
+}
+
+/// A transform of raw input values (`--values raw`) before features are formed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, clap::ValueEnum)]
+#[serde(rename_all = "snake_case")]
+pub enum Transform {
+    /// Values as they are.
+    None,
+    /// log(1 + x), for counts (x >= 0): compresses a heavy right tail, keeps 0 at 0.
+    Log1p,
 }
 
 /// A validated run configuration.
@@ -85,6 +98,15 @@ pub struct RunConfig {
     pub mask: Option<PathBuf>,
     /// How input values are scaled.
     pub values: Values,
+    /// Transform of raw values (`Values::Raw` only).
+    pub transform: Transform,
+    /// The variable read from MATLAB `.mat` inputs (None: each file's only numeric variable).
+    pub variable: Option<String>,
+    /// Measure columns (of the participants table, or of `measures_table`) in place of inputs.
+    pub measures: Vec<String>,
+    /// A separate measures table keyed by `participant_id` (all numeric columns when
+    /// `measures` is empty).
+    pub measures_table: Option<PathBuf>,
     /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions.
     pub atlas: Option<PathBuf>,
     /// How the sweep's graphs are cut from the similarity matrix.
@@ -332,6 +354,10 @@ impl RunConfig {
             force: false,
             mask: None,
             values: Values::R,
+            transform: Transform::None,
+            variable: None,
+            measures: Vec::new(),
+            measures_table: None,
             atlas: None,
             graph: GraphRule::Density,
             densities: DEFAULT_DENSITIES.to_vec(),
@@ -353,12 +379,35 @@ impl RunConfig {
         }
     }
 
+    /// True when the run analyses a measure table rather than input files.
+    pub fn uses_measures(&self) -> bool {
+        !self.measures.is_empty() || self.measures_table.is_some()
+    }
+
     /// Checks cross-flag rules; every message names the flags involved.
     pub fn validate(self) -> Result<Self, ConfigError> {
-        if self.inputs.is_empty() && self.similarity.is_none() {
+        if self.uses_measures() && (!self.inputs.is_empty() || self.similarity.is_some()) {
+            return Err(invalid(
+                "--measures",
+                "takes the place of --inputs and --similarity; give one kind of input per run",
+            ));
+        }
+        if self.uses_measures() && self.values != Values::R {
+            return Err(invalid(
+                "--values",
+                "does not apply to measures (they are standardised, never Fisher-transformed); drop --values",
+            ));
+        }
+        if self.inputs.is_empty() && self.similarity.is_none() && !self.uses_measures() {
             return Err(invalid(
                 "--inputs",
                 "no input given; for example --inputs 'maps/sub-*_seedmap.nii.gz'",
+            ));
+        }
+        if self.transform != Transform::None && self.values != Values::Raw {
+            return Err(invalid(
+                "--transform",
+                "applies to raw values (counts, densities) only; pass --values raw with it, or drop --transform for correlations",
             ));
         }
         if self.trials == 0 {

@@ -16,7 +16,7 @@ use serde_json::json;
 use crate::communities::{self, CommunityOptions, CommunityResult};
 use crate::config::{ConfigError, RunConfig, Values};
 use crate::error::Error;
-use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale};
+use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale, ValueTransform};
 use crate::maps::{self, MapName, Statistic, WriteError};
 use crate::read::{self, Cohort, InputOptions};
 use crate::report::tables::format_number;
@@ -141,6 +141,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     let mut timings = Timings::default();
     let output = OutputFolder::prepare(&config.out, config.force)?;
 
+    let mut missing_measures = Vec::new();
     let (cohort, groups, given_similarity) = timings.time(log, "read", || -> Result<_, Error> {
         let table = read::read_participants(&config.participants)?;
         let (cohort, given) = match &config.similarity {
@@ -148,10 +149,17 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 let (cohort, values) = read::read_similarity(path, &table)?;
                 (cohort, Some(SimilarityMatrix { values }))
             }
+            None if config.uses_measures() => {
+                let (cohort, missing) =
+                    read::discover_measures(&table, &config.measures, config.measures_table.as_deref())?;
+                missing_measures = missing;
+                (cohort, None)
+            }
             None => {
                 let options = InputOptions {
                     patterns: config.inputs.clone(),
                     match_column: config.match_column.clone(),
+                    variable: config.variable.clone(),
                 };
                 (read::discover_inputs(&options, &table)?, None)
             }
@@ -185,6 +193,11 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                     values: match config.values {
                         Values::R => ValueScale::Correlation,
                         Values::Z => ValueScale::FisherZ,
+                        Values::Raw => ValueScale::Raw,
+                    },
+                    transform: match config.transform {
+                        crate::config::Transform::None => ValueTransform::None,
+                        crate::config::Transform::Log1p => ValueTransform::Log1p,
                     },
                     region_names,
                 };
@@ -255,6 +268,11 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
     let measured = timings.time(log, "graph measures", || measure_graph(config, &similarity, &communities));
 
     let mut warnings = Vec::new();
+    if !missing_measures.is_empty() {
+        warnings.push(Warning::MissingMeasures {
+            entries: missing_measures.iter().map(|m| (m.participant.clone(), m.column.clone())).collect(),
+        });
+    }
     collect_community_warnings(&cohort, &communities, config, &mut warnings);
     warnings.extend(validated.warnings.iter().cloned());
     let missing: Vec<String> = groups
@@ -286,9 +304,17 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             &features.matrix,
             &features.space,
             &communities.partition,
-            match config.values {
-                Values::R => ValueScale::Correlation,
-                Values::Z => ValueScale::FisherZ,
+            &crate::assign::Preprocessing {
+                values: match config.values {
+                    Values::R => ValueScale::Correlation,
+                    Values::Z => ValueScale::FisherZ,
+                    Values::Raw => ValueScale::Raw,
+                },
+                transform: match config.transform {
+                    crate::config::Transform::None => ValueTransform::None,
+                    crate::config::Transform::Log1p => ValueTransform::Log1p,
+                },
+                variable: config.variable.clone(),
             },
         )?;
     }
@@ -798,6 +824,7 @@ pub fn describe_feature(space: &FeatureSpace, index: usize) -> String {
             let (i, j) = edges.edge(index);
             format!("{} - {}", edges.region_names[i], edges.region_names[j])
         }
+        FeatureSpace::Measures(measures) => measures.names.get(index).cloned().unwrap_or_default(),
     }
 }
 
@@ -841,6 +868,7 @@ fn build_summary(
         Some(space @ FeatureSpace::Edges(edges)) => {
             format!("{} regions, {} edges", edges.region_count, space.feature_count())
         }
+        Some(FeatureSpace::Measures(measures)) => format!("{} standardised measures", measures.names.len()),
         None => "a precomputed similarity matrix".to_string(),
     };
     RunSummary {
@@ -849,6 +877,7 @@ fn build_summary(
         input_kind: match features.map(|features| &features.space) {
             Some(FeatureSpace::Voxels(_)) => "seed_maps".into(),
             Some(FeatureSpace::Edges(_)) => "region_matrices".into(),
+            Some(FeatureSpace::Measures(_)) => "measures".into(),
             None => "similarity_matrix".into(),
         },
         participant_count: cohort.participant_ids.len(),

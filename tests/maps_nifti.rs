@@ -46,7 +46,7 @@ fn voxel_space() -> (FeatureSpace, [[f64; 4]; 4]) {
 fn mask_of(space: &FeatureSpace) -> &[usize] {
     match space {
         FeatureSpace::Voxels(voxels) => &voxels.mask,
-        FeatureSpace::Edges(_) => unreachable!(),
+        FeatureSpace::Edges(_) | FeatureSpace::Measures(_) => unreachable!(),
     }
 }
 

@@ -369,7 +369,8 @@ pub struct RunArgs {
     pub config: Option<PathBuf>,
     /// Input files: a glob pattern or paths (repeat the flag or separate with commas). 3D NIfTI
     /// seed maps (.nii, .nii.gz) or region matrices (.npy R x R or one N x R x R stack, .csv,
-    /// .tsv). Quote globs so the shell does not expand them. Required, unless --similarity.
+    /// .tsv). Quote globs so the shell does not expand them. Required, unless --similarity,
+    /// --measures or --measures-table.
     #[arg(long, value_name = "GLOB", value_delimiter = ',', help_heading = "Inputs")]
     pub inputs: Vec<String>,
     /// A precomputed participant similarity matrix (.npy, N x N, rows in participants-table
@@ -387,9 +388,29 @@ pub struct RunArgs {
     /// non-zero in every participant.
     #[arg(long, value_name = "FILE", help_heading = "Inputs")]
     pub mask: Option<PathBuf>,
-    /// How input values are scaled: r (correlations; Fisher z is applied) or z (already Fisher z).
+    /// How input values are scaled: r (correlations; range-checked, Fisher z applied), z
+    /// (already Fisher z) or raw (not correlations, such as streamline counts or fibre densities:
+    /// used as they are, no range check, no Fisher z).
     #[arg(long, value_enum, default_value = "r", value_name = "SCALE", help_heading = "Inputs")]
     pub values: Values,
+    /// Transform of raw values (with --values raw): none, or log1p = log(1 + x) for counts
+    /// (negative values are an error).
+    #[arg(long, value_enum, default_value = "none", value_name = "NAME", help_heading = "Inputs")]
+    pub transform: config::Transform,
+    /// The variable of MATLAB .mat inputs, or the dataset path of HDF5 inputs (--dataset is
+    /// the same flag; for example group/conn): an R x R matrix per file, or one stack for the
+    /// cohort (MATLAB R x R x N, numpy/HDF5 N x R x R). Default: the file's only numeric array.
+    #[arg(long, visible_alias = "dataset", value_name = "NAME", help_heading = "Inputs")]
+    pub variable: Option<String>,
+    /// Measures in place of --inputs: columns of the participants table (or of
+    /// --measures-table) holding scores, for example memory,attention. Each is standardised
+    /// across participants; participants with a missing value (n/a) are left out with a warning.
+    #[arg(long, value_name = "COL,...", value_delimiter = ',', conflicts_with_all = ["inputs", "similarity"], help_heading = "Inputs")]
+    pub measures: Vec<String>,
+    /// A separate measures table (TSV, first column participant_id); without --measures, all
+    /// its numeric columns are used.
+    #[arg(long, value_name = "TSV", conflicts_with_all = ["inputs", "similarity"], help_heading = "Inputs")]
+    pub measures_table: Option<PathBuf>,
     /// Atlas table naming the regions of matrices: TSV with columns index, name (and optionally
     /// network), one row per region in matrix order.
     #[arg(long, value_name = "TSV", help_heading = "Inputs")]
@@ -535,6 +556,10 @@ impl RunArgs {
             force: self.force,
             mask: self.mask,
             values: self.values,
+            transform: self.transform,
+            variable: self.variable,
+            measures: self.measures,
+            measures_table: self.measures_table,
             atlas: self.atlas,
             method: self.method,
             trials: self.trials,

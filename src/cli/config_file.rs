@@ -36,6 +36,8 @@ enum Kind {
     Sweep,
     /// Two group levels.
     Contrast,
+    /// Column names: one string "A,B" or a list of strings.
+    Names,
 }
 
 /// Every key of the file with its kind, in the order of `strata run --help`. A unit test checks
@@ -47,6 +49,10 @@ const KEYS: &[(&str, Kind)] = &[
     ("match_column", Kind::Text),
     ("mask", Kind::Path),
     ("values", Kind::Choice),
+    ("transform", Kind::Choice),
+    ("variable", Kind::Text),
+    ("measures", Kind::Names),
+    ("measures_table", Kind::Path),
     ("atlas", Kind::Path),
     ("group_column", Kind::Text),
     ("contrast", Kind::Contrast),
@@ -133,6 +139,7 @@ fn allowed_text(key: &str, kind: Kind) -> String {
         Kind::Switch => "true or false".into(),
         Kind::Sweep => r#"a range "START:STOP:STEP" or a list of numbers"#.into(),
         Kind::Contrast => r#"two levels of group_column, ["A", "B"] or "A,B""#.into(),
+        Kind::Names => r#"column names, ["A", "B"] or "A,B""#.into(),
     }
 }
 
@@ -237,7 +244,7 @@ impl ConfigFile {
                 (Kind::Globs | Kind::Path, toml::Value::String(text)) => {
                     flags.push(format!("{flag}={}", self.anchored(text)))
                 }
-                (Kind::Sweep | Kind::Contrast, toml::Value::Array(items)) => {
+                (Kind::Sweep | Kind::Contrast | Kind::Names, toml::Value::Array(items)) => {
                     let parts: Vec<String> = items.iter().map(scalar_text).collect();
                     flags.push(format!("{flag}={}", parts.join(",")));
                 }
@@ -328,6 +335,10 @@ fn check_value(path: &Path, key: &str, kind: Kind, value: &toml::Value) -> Resul
             !items.is_empty() && items.iter().all(|item| matches!(item, Value::Integer(_) | Value::Float(_)))
         }
         (Kind::Contrast, Value::String(text)) => !text.is_empty(),
+        (Kind::Names, Value::String(text)) => !text.is_empty(),
+        (Kind::Names, Value::Array(items)) => {
+            !items.is_empty() && items.iter().all(|item| item.as_str().is_some_and(|text| !text.is_empty()))
+        }
         (Kind::Contrast, Value::Array(items)) => {
             items.len() == 2 && items.iter().all(|item| item.as_str().is_some_and(|text| !text.is_empty()))
         }

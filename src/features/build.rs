@@ -7,9 +7,12 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
-use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, VoxelSpace};
-use crate::read::matrix::{read_matrix, read_stack};
-use crate::read::nifti::{affines_match, format_affine, read_raw, read_volume, RawVolume, Volume};
+use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, MeasureSpace, VoxelSpace};
+use crate::read::cifti::{is_pconn, read_pconn};
+use crate::read::matrix::{read_matrix_in, read_stack_in};
+use crate::read::nifti::{
+    affines_match, format_affine, read_raw, read_raw_stack, read_volume, RawVolume, Volume, STACK_PARTICIPANT,
+};
 use crate::read::{Cohort, InputKind};
 
 /// Off-diagonal entries (i, j) and (j, i) of a matrix are taken as equal within this relative
@@ -24,6 +27,19 @@ pub enum ValueScale {
     Correlation,
     /// Already Fisher z: used as they are.
     FisherZ,
+    /// Not correlations (counts, densities, other measures): used as they are, no range check,
+    /// no Fisher z.
+    Raw,
+}
+
+/// A transform of raw values, applied before the scale's own handling.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ValueTransform {
+    /// Values as they are.
+    None,
+    /// log(1 + x) (`f64::ln_1p`, accurate near 0), for counts; negative values are refused.
+    Log1p,
 }
 
 /// Options of the features stage.
@@ -33,6 +49,8 @@ pub struct FeatureOptions {
     pub mask: Option<PathBuf>,
     /// How input values are scaled.
     pub values: ValueScale,
+    /// Transform applied to each value first (meant for `ValueScale::Raw`).
+    pub transform: ValueTransform,
     /// Region names for matrices, with the atlas table they came from.
     pub region_names: Option<(PathBuf, Vec<String>)>,
 }
@@ -65,14 +83,24 @@ pub struct Features {
     pub summary: FeatureSummary,
 }
 
-/// Transforms one value; Err(problem) when a correlation is out of range.
-fn transform(value: f64, scale: ValueScale, clipped: &mut usize) -> Result<f32, String> {
-    match scale {
-        ValueScale::FisherZ => Ok(value as f32),
+/// Transforms one value; Err(problem) when a correlation is out of range or a value to be
+/// log-transformed is negative.
+fn transform(value: f64, options: &FeatureOptions, clipped: &mut usize) -> Result<f32, String> {
+    let value = match options.transform {
+        ValueTransform::None => value,
+        ValueTransform::Log1p if value < 0.0 => {
+            return Err(format!(
+                "value {value} is negative; --transform log1p is for counts and densities (0 or more): check the file, or use --transform none"
+            ))
+        }
+        ValueTransform::Log1p => value.ln_1p(),
+    };
+    match options.values {
+        ValueScale::FisherZ | ValueScale::Raw => Ok(value as f32),
         ValueScale::Correlation => {
             if value.abs() > 1.0 + RANGE_TOLERANCE {
                 return Err(format!(
-                    "value {value} is outside [-1, 1], so it is not a correlation; if the inputs are already Fisher z, pass --values z"
+                    "value {value} is outside [-1, 1], so it is not a correlation; if the inputs are already Fisher z, pass --values z; if they are not correlations (counts, densities), pass --values raw"
                 ));
             }
             if value.abs() >= 1.0 - FISHER_Z_CLIP {
@@ -100,6 +128,7 @@ pub fn build_features(cohort: &Cohort, options: &FeatureOptions) -> Result<Featu
         InputKind::SeedMaps => build_voxels(cohort, options)?,
         InputKind::RegionMatrices => build_edges(cohort, options)?,
         InputKind::Similarity => return Err(FeatureError::NoFeatures),
+        InputKind::Measures => build_measures(cohort)?,
     };
     check_not_constant(cohort, &features.matrix)?;
     Ok(features)
@@ -156,7 +185,29 @@ fn check_grid_raw(
 
 fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, FeatureError> {
     let first_path = &cohort.sources[0].path;
-    let first = read_volume(first_path, &cohort.participant_ids[0])?;
+    // A merged 4D file is read once; each participant's volume is decoded from it on demand.
+    let stack = match cohort.sources[0].stack_index {
+        Some(_) => {
+            let stack = read_raw_stack(first_path)?;
+            if stack.frames != cohort.participant_ids.len() {
+                return Err(FeatureError::BadValue {
+                    path: first_path.clone(),
+                    participant: STACK_PARTICIPANT.into(),
+                    problem: format!(
+                        "{} volumes along the 4th dimension for {} participants; a merged 4D NIfTI holds one volume per participants-table row",
+                        stack.frames,
+                        cohort.participant_ids.len()
+                    ),
+                });
+            }
+            Some(stack)
+        }
+        None => None,
+    };
+    let first = match &stack {
+        Some(stack) => stack.decode_frame(0),
+        None => read_volume(first_path, &cohort.participant_ids[0])?,
+    };
     let grid_size = first.values.len();
     let given_mask = match &options.mask {
         Some(mask_path) => {
@@ -224,6 +275,10 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
             let mut gathered = Vec::new();
             let stored: &[f32] = if row == 0 {
                 &reference.values
+            } else if let Some(stack) = &stack {
+                gathered.resize(candidates.len(), 0.0f32);
+                stack.gather_frame(row, &candidates, &mut gathered);
+                &gathered
             } else {
                 let raw = read_raw(path, participant)?;
                 check_grid_raw(&raw, reference, path, participant, first_path)?;
@@ -256,7 +311,7 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
                     invalid.push(column);
                     continue;
                 }
-                *target = transform(f64::from(value), options.values, &mut clipped).map_err(|problem| {
+                *target = transform(f64::from(value), options, &mut clipped).map_err(|problem| {
                     let (i, j, k) = voxel_ijk(voxel, reference.dim);
                     FeatureError::BadValue {
                         path: path.clone(),
@@ -328,7 +383,7 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
 fn matrix_row(
     matrix: ndarray::ArrayView2<f64>,
     regions: usize,
-    scale: ValueScale,
+    options: &FeatureOptions,
     out: &mut [f32],
     path: &Path,
     participant: &str,
@@ -361,7 +416,7 @@ fn matrix_row(
                     i + 1
                 )));
             }
-            out[index] = transform(value, scale, &mut clipped)
+            out[index] = transform(value, options, &mut clipped)
                 .map_err(|problem| bad(format!("row {}, column {}: {problem}", i + 1, j + 1)))?;
             index += 1;
         }
@@ -373,7 +428,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
     let participants = cohort.participant_ids.len();
     let first_path = cohort.sources[0].path.clone();
     let stack = match cohort.sources[0].stack_index {
-        Some(_) => Some(read_stack(&first_path)?),
+        Some(_) => Some(read_stack_in(&first_path, cohort.variable.as_deref())?),
         None => None,
     };
     let check_square = |shape: (usize, usize), path: &Path, participant: &str| -> Result<(), FeatureError> {
@@ -389,9 +444,17 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
         }
         Ok(())
     };
+    // CIFTI-2 .pconn.nii files name their parcels: the first file's names become region names
+    // and every other file must name the same parcels in the same order.
+    let mut parcel_names = None;
     let first_matrix = match &stack {
         Some(stack) => stack.index_axis(ndarray::Axis(0), 0).to_owned(),
-        None => read_matrix(&first_path, &cohort.participant_ids[0])?,
+        None if is_pconn(&first_path) => {
+            let pconn = read_pconn(&first_path, &cohort.participant_ids[0])?;
+            parcel_names = Some(pconn.parcel_names);
+            pconn.matrix
+        }
+        None => read_matrix_in(&first_path, &cohort.participant_ids[0], cohort.variable.as_deref())?,
     };
     check_square(first_matrix.dim(), &first_path, &cohort.participant_ids[0])?;
     let regions = first_matrix.nrows();
@@ -409,7 +472,10 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
             }
             names.clone()
         }
-        None => (1..=regions).map(|index| format!("region-{index:03}")).collect(),
+        None => match &parcel_names {
+            Some(names) => names.clone(),
+            None => (1..=regions).map(|index| format!("region-{index:03}")).collect(),
+        },
     };
     let width = regions * (regions - 1) / 2;
     let mut values = vec![0.0f32; participants * width];
@@ -425,7 +491,34 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
                 (Some(stack), _) => stack.index_axis(ndarray::Axis(0), row),
                 (None, 0) => first_matrix.view(),
                 (None, _) => {
-                    owned = read_matrix(path, participant)?;
+                    owned = match &parcel_names {
+                        Some(first_names) => {
+                            let pconn = read_pconn(path, participant)?;
+                            // Another parcel count is reported as such below.
+                            let same_count = pconn.parcel_names.len() == first_names.len();
+                            if same_count && &pconn.parcel_names != first_names {
+                                let differs = pconn
+                                    .parcel_names
+                                    .iter()
+                                    .zip(first_names)
+                                    .position(|(a, b)| a != b)
+                                    .unwrap_or(0);
+                                return Err(FeatureError::BadValue {
+                                    path: path.clone(),
+                                    participant: participant.clone(),
+                                    problem: format!(
+                                        "parcel {} is '{}' but in {} it is '{}'; every participant needs the same parcellation in the same order",
+                                        differs + 1,
+                                        pconn.parcel_names.get(differs).map_or("(none)", String::as_str),
+                                        first_path.display(),
+                                        first_names.get(differs).map_or("(none)", String::as_str)
+                                    ),
+                                });
+                            }
+                            pconn.matrix
+                        }
+                        None => read_matrix_in(path, participant, cohort.variable.as_deref())?,
+                    };
                     check_square(owned.dim(), path, participant)?;
                     if owned.nrows() != regions {
                         return Err(FeatureError::RegionCountMismatch {
@@ -439,7 +532,7 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
                     owned.view()
                 }
             };
-            matrix_row(view, regions, options.values, out, path, participant)
+            matrix_row(view, regions, options, out, path, participant)
         })
         .collect();
     let mut clipped_values = 0;
@@ -460,6 +553,101 @@ fn build_edges(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, Fe
     Ok(Features {
         matrix,
         space: FeatureSpace::Edges(EdgeSpace { region_count: regions, region_names }),
+        summary,
+    })
+}
+
+/// Standardises each measure (column) of an N x M row-major table: z = (x - mean) / sd with the
+/// sample standard deviation (n - 1 denominator), in f64.
+///
+/// # Arguments
+/// `values`: N x M, row-major; `measures`: M.
+///
+/// # Returns
+/// The standardised values (f32) and each measure's mean and standard deviation; Err(column)
+/// for the first constant measure (SD at most [`CONSTANT_MEASURE_TOLERANCE`] times its mean's
+/// magnitude, or 1).
+///
+/// # Complexity
+/// O(N M) time, O(M) extra memory.
+pub fn standardise_measures(values: &[f64], measures: usize) -> Result<Standardised, usize> {
+    let rows = values.len() / measures.max(1);
+    let mut means = vec![0.0; measures];
+    for row in values.chunks_exact(measures) {
+        for (mean, &value) in means.iter_mut().zip(row) {
+            *mean += value;
+        }
+    }
+    means.iter_mut().for_each(|mean| *mean /= rows as f64);
+    let mut deviations = vec![0.0; measures];
+    for row in values.chunks_exact(measures) {
+        for ((sum, &value), mean) in deviations.iter_mut().zip(row).zip(&means) {
+            *sum += (value - mean) * (value - mean);
+        }
+    }
+    let denominator = rows.saturating_sub(1).max(1) as f64;
+    let deviations: Vec<f64> = deviations.into_iter().map(|sum| (sum / denominator).sqrt()).collect();
+    let constant = |(sd, mean): (&f64, &f64)| {
+        sd.is_nan() || *sd <= CONSTANT_MEASURE_TOLERANCE * mean.abs().max(1.0) || !sd.is_finite()
+    };
+    if let Some(column) = deviations.iter().zip(&means).position(constant) {
+        return Err(column);
+    }
+    let values = values
+        .chunks_exact(measures)
+        .flat_map(|row| row.iter().zip(&means).zip(&deviations).map(|((v, m), s)| ((v - m) / s) as f32))
+        .collect();
+    Ok(Standardised { values, means, standard_deviations: deviations })
+}
+
+/// A measure whose sample SD is at most this fraction of its mean's magnitude (or of 1) is taken
+/// as constant: rounding of identical values in the mean leaves an SD near 1e-16 relative
+/// (f64 resolution; common practice).
+pub const CONSTANT_MEASURE_TOLERANCE: f64 = 1e-12;
+
+/// Standardised measures and what was removed from them.
+#[derive(Debug, Clone)]
+pub struct Standardised {
+    /// N x M standardised values, row-major, f32.
+    pub values: Vec<f32>,
+    /// Each measure's mean.
+    pub means: Vec<f64>,
+    /// Each measure's sample standard deviation (n - 1).
+    pub standard_deviations: Vec<f64>,
+}
+
+fn build_measures(cohort: &Cohort) -> Result<Features, FeatureError> {
+    let measures = cohort.measures.as_ref().ok_or(FeatureError::NoFeatures)?;
+    let width = measures.names.len();
+    let participants = cohort.participant_ids.len();
+    let Standardised { values, means, standard_deviations } =
+        standardise_measures(&measures.values, width).map_err(|column| FeatureError::BadValue {
+            path: measures.path.clone(),
+            participant: "(every participant)".into(),
+            problem: format!(
+                "measure '{}' has the same value for every analysed participant; it cannot be standardised: leave it out of --measures",
+                measures.names[column]
+            ),
+        })?;
+    let matrix = FeatureMatrix {
+        values: Array2::from_shape_vec((participants, width), values)
+            .expect("rows x measures by construction"),
+    };
+    let summary = FeatureSummary {
+        participants,
+        features: width,
+        voxels_outside_mask: 0,
+        voxels_dropped: 0,
+        clipped_values: 0,
+        fisher_z_clip: FISHER_Z_CLIP,
+    };
+    Ok(Features {
+        matrix,
+        space: FeatureSpace::Measures(MeasureSpace {
+            names: measures.names.clone(),
+            means,
+            standard_deviations,
+        }),
         summary,
     })
 }

@@ -9,7 +9,10 @@ mod build;
 mod error;
 mod fisher;
 
-pub use build::{build_features, FeatureOptions, FeatureSummary, Features, ValueScale};
+pub use build::{
+    build_features, standardise_measures, FeatureOptions, FeatureSummary, Features, Standardised, ValueScale,
+    ValueTransform, CONSTANT_MEASURE_TOLERANCE,
+};
 pub use error::FeatureError;
 pub use fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
 
@@ -48,6 +51,19 @@ pub enum FeatureSpace {
     Voxels(VoxelSpace),
     /// Upper-triangle edges (i < j, row-major: numpy's `triu_indices(R, 1)` order) of R x R matrices.
     Edges(EdgeSpace),
+    /// Measures (columns of a table), each standardised across participants.
+    Measures(MeasureSpace),
+}
+
+/// A measure feature space: one feature per measure; maps become profile tables.
+#[derive(Debug, Clone)]
+pub struct MeasureSpace {
+    /// Measure names, in feature order.
+    pub names: Vec<String>,
+    /// Mean of each measure across the analysed participants (before standardisation).
+    pub means: Vec<f64>,
+    /// Sample standard deviation (n - 1) of each measure.
+    pub standard_deviations: Vec<f64>,
 }
 
 /// A voxel feature space: the input grid, its affine and the mask.
@@ -97,6 +113,7 @@ impl FeatureSpace {
         match self {
             FeatureSpace::Voxels(space) => space.mask.len(),
             FeatureSpace::Edges(space) => space.region_count * space.region_count.saturating_sub(1) / 2,
+            FeatureSpace::Measures(space) => space.names.len(),
         }
     }
 }

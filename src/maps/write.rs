@@ -14,7 +14,7 @@ use nifti::writer::WriterOptions;
 use serde_json::{json, Map, Value};
 
 use super::{MapName, Statistic, WriteError};
-use crate::features::{EdgeSpace, FeatureSpace, VoxelSpace};
+use crate::features::{EdgeSpace, FeatureSpace, MeasureSpace, VoxelSpace};
 
 /// gzip level of written `.nii.gz` maps: zlib's default 6. Statistic maps compress well (zeros
 /// outside the mask) and a 91 x 109 x 91 map still writes in tens of milliseconds, so the better
@@ -157,6 +157,16 @@ pub fn write_map(
             );
             write_edge_map(&npy, &tsv, edges, statistic, values)?;
             vec![npy, tsv]
+        }
+        FeatureSpace::Measures(measures) => {
+            let tsv = dir.join(format!("{stem}.tsv"));
+            fields.insert(
+                "Space".into(),
+                json!({"Kind": "measures", "Measures": measures.names.len(),
+                       "Scale": "each measure standardised across the analysed participants (mean 0, sample SD 1)"}),
+            );
+            write_profile(&tsv, measures, values)?;
+            vec![tsv]
         }
     };
     for (key, value) in extra {
@@ -359,6 +369,26 @@ fn write_edge_map(
             .map_err(|error| WriteError::Encode { path: npy.to_path_buf(), message: error.to_string() })?;
         writer.flush().map_err(|source| WriteError::Io { path: temporary.to_path_buf(), source })
     })?;
+    write_atomically(tsv, |temporary| {
+        std::fs::write(temporary, &table)
+            .map_err(|source| WriteError::Io { path: temporary.to_path_buf(), source })
+    })
+}
+
+/// A profile table: one row per measure (`measure`, `value`), in feature order.
+fn write_profile(tsv: &Path, space: &MeasureSpace, values: &[f32]) -> Result<(), WriteError> {
+    if space.names.len() != values.len() {
+        return Err(WriteError::Mismatch {
+            path: tsv.to_path_buf(),
+            found: format!("{} values", values.len()),
+            expected: format!("one per measure ({})", space.names.len()),
+        });
+    }
+    let mut table = String::from("measure\tvalue\n");
+    for (name, value) in space.names.iter().zip(values) {
+        let shown = if value.is_nan() { "n/a".to_string() } else { value.to_string() };
+        table.push_str(&format!("{name}\t{shown}\n"));
+    }
     write_atomically(tsv, |temporary| {
         std::fs::write(temporary, &table)
             .map_err(|source| WriteError::Io { path: temporary.to_path_buf(), source })

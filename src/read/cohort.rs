@@ -3,8 +3,9 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
+use super::nifti::STACK_PARTICIPANT;
 use super::table::ParticipantsTable;
-use super::{matrix, ReadError};
+use super::{mat, matrix, nifti, ReadError};
 use crate::error::list_ids;
 
 /// How input files are found and matched to participants.
@@ -15,18 +16,22 @@ pub struct InputOptions {
     /// Match files by this participants-table column (its value must occur in the file name as a
     /// whole token) instead of the `sub-<label>` in the file name.
     pub match_column: Option<String>,
+    /// The variable to read from MATLAB `.mat` files (None: the file's only numeric variable).
+    pub variable: Option<String>,
 }
 
 /// What kind of data the inputs hold.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum InputKind {
-    /// 3D NIfTI seed maps, one per participant.
+    /// 3D NIfTI seed maps, one per participant, or one merged 4D file (a volume per participant).
     SeedMaps,
     /// R x R region matrices, one per participant or one stacked N x R x R array.
     RegionMatrices,
     /// A precomputed N x N participant similarity matrix: no features, similarity only.
     Similarity,
+    /// Participants x measures from a table (scores): standardised, no Fisher z.
+    Measures,
 }
 
 /// Where one participant's values are stored.
@@ -34,7 +39,8 @@ pub enum InputKind {
 pub struct InputSource {
     /// The file.
     pub path: PathBuf,
-    /// For a stacked N x R x R `.npy`, the index along the first axis.
+    /// For a stacked N x R x R `.npy`, the index along the first axis; for a merged 4D NIfTI,
+    /// the volume along the 4th dimension.
     pub stack_index: Option<usize>,
 }
 
@@ -49,14 +55,23 @@ pub struct Cohort {
     pub sources: Vec<InputSource>,
     /// What the inputs are.
     pub kind: InputKind,
+    /// The variable read from MATLAB `.mat` inputs (None: each file's only numeric variable).
+    pub variable: Option<String>,
+    /// The values of a measures run (participants x measures), already read.
+    pub measures: Option<super::measures::MeasureValues>,
 }
 
 /// The input kind of a file, from its name.
 pub fn kind_of(path: &Path) -> Option<InputKind> {
     let name = path.file_name()?.to_string_lossy().to_ascii_lowercase();
-    if name.ends_with(".nii") || name.ends_with(".nii.gz") {
+    if name.ends_with(".pconn.nii") {
+        Some(InputKind::RegionMatrices)
+    } else if name.ends_with(".nii") || name.ends_with(".nii.gz") {
         Some(InputKind::SeedMaps)
-    } else if [".npy", ".csv", ".tsv", ".txt"].iter().any(|extension| name.ends_with(extension)) {
+    } else if [".npy", ".csv", ".tsv", ".txt", ".mat", ".h5", ".hdf5"]
+        .iter()
+        .any(|extension| name.ends_with(extension))
+    {
         Some(InputKind::RegionMatrices)
     } else {
         None
@@ -134,12 +149,12 @@ fn expand(patterns: &[String]) -> Result<Vec<PathBuf>, ReadError> {
 ///
 /// Every file must belong to exactly one table participant and every table participant must
 /// have exactly one file; a single `.npy` holding an N x R x R stack is matched to the N table
-/// rows in order.
+/// rows in order, and so is a single NIfTI whose 4th dimension holds one volume per participant.
 ///
 /// # Errors
 /// A pattern matches nothing; files of mixed or unknown kinds; a file with no participant label
 /// or no table row; two files for one participant; table participants without a file; a stack
-/// whose N differs from the table; fewer than two participants.
+/// or merged 4D file whose N differs from the table; fewer than two participants.
 pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Result<Cohort, ReadError> {
     let files = expand(&options.patterns)?;
     let first = files.first().ok_or_else(|| ReadError::Pattern {
@@ -150,7 +165,7 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     for file in &files {
         let this = kind_of(file).ok_or_else(|| ReadError::Format {
             path: file.clone(),
-            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt region matrices".into(),
+            problem: "unknown input format; strata reads .nii/.nii.gz seed maps and .npy/.csv/.tsv/.txt/.mat/.h5/.hdf5/.pconn.nii region matrices".into(),
         })?;
         match kind {
             None => kind = Some(this),
@@ -170,15 +185,62 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
     }
     let kind = kind.unwrap_or(InputKind::RegionMatrices);
 
-    // One stacked array for the whole cohort.
-    if files.len() == 1 && kind == InputKind::RegionMatrices && matrix::npy_dimensions(first)? == Some(3) {
-        let shape = matrix::npy_shape(first)?;
-        if shape[0] != table.row_count() {
+    // One stacked array (N x R x R .npy) or merged 4D NIfTI for the whole cohort.
+    let stacked = match (files.len(), kind) {
+        (1, InputKind::RegionMatrices) if matrix::npy_dimensions(first)? == Some(3) => Some((
+            matrix::npy_shape(first)?[0],
+            "stack of",
+            "matrices",
+            "a stacked N x R x R array must hold one matrix",
+        )),
+        (1, InputKind::RegionMatrices) if matrix::is_mat(first) => {
+            let variable = mat::find_variable(first, STACK_PARTICIPANT, options.variable.as_deref())?;
+            match variable.dims.len() {
+                2 => None,
+                3 => {
+                    let axis = mat::stack_axis(&variable).ok_or_else(|| ReadError::Format {
+                        path: first.clone(),
+                        problem: format!(
+                            "variable {} is neither R x R x N (participants along the third dimension) nor N x R x R; a stack holds one square matrix per participant",
+                            variable.describe()
+                        ),
+                    })?;
+                    Some((
+                        variable.dims[axis],
+                        "stack of",
+                        "matrices",
+                        "a stacked R x R x N variable must hold one matrix",
+                    ))
+                }
+                _ => {
+                    return Err(ReadError::Format {
+                        path: first.clone(),
+                        problem: format!(
+                            "variable {} has {} dimensions; expected an R x R matrix per participant or one R x R x N stack",
+                            variable.describe(),
+                            variable.dims.len()
+                        ),
+                    })
+                }
+            }
+        }
+        (1, InputKind::SeedMaps) => match nifti::frame_count(first)? {
+            1 => None,
+            frames => Some((
+                frames,
+                "4D image with",
+                "volumes along the 4th dimension",
+                "a merged 4D NIfTI must hold one 3D volume",
+            )),
+        },
+        _ => None,
+    };
+    if let Some((count, before, after, rule)) = stacked {
+        if count != table.row_count() {
             return Err(ReadError::Format {
                 path: first.clone(),
                 problem: format!(
-                    "stack of {} matrices but {} has {} participants; a stacked N x R x R array must hold one matrix per table row, in table order",
-                    shape[0],
+                    "{before} {count} {after} but {} has {} participants; {rule} per table row, in table order",
                     table.path().display(),
                     table.row_count()
                 ),
@@ -190,14 +252,15 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
                 count: table.row_count(),
             });
         }
-        let sources = (0..shape[0])
-            .map(|index| InputSource { path: first.clone(), stack_index: Some(index) })
-            .collect();
+        let sources =
+            (0..count).map(|index| InputSource { path: first.clone(), stack_index: Some(index) }).collect();
         return Ok(Cohort {
             table: table.clone(),
             participant_ids: table.ids().iter().map(|id| id.to_string()).collect(),
             sources,
             kind,
+            variable: options.variable.clone(),
+            measures: None,
         });
     }
 
@@ -293,6 +356,8 @@ pub fn discover_inputs(options: &InputOptions, table: &ParticipantsTable) -> Res
             .map(|path| InputSource { path, stack_index: None })
             .collect(),
         kind,
+        variable: options.variable.clone(),
+        measures: None,
     })
 }
 
@@ -301,6 +366,7 @@ fn describe(kind: InputKind) -> &'static str {
         InputKind::SeedMaps => "NIfTI seed map",
         InputKind::RegionMatrices => "region matrix",
         InputKind::Similarity => "similarity matrix",
+        InputKind::Measures => "measure table",
     }
 }
 

@@ -73,13 +73,36 @@ fn read_npy<T: ReadableElement, D: ndarray::Dimension>(
     ndarray::Array::<T, D>::read_npy(BufReader::new(file))
 }
 
+/// True for a container file read by variable or dataset name: MATLAB `.mat`, HDF5 `.h5`/`.hdf5`.
+pub fn is_mat(path: &Path) -> bool {
+    path.to_string_lossy().to_ascii_lowercase().ends_with(".mat") || super::mat::is_hdf5_name(path)
+}
+
 /// Reads one R x R matrix as f64 (from float32 or float64 `.npy`, or delimited text).
 ///
 /// # Errors
 /// The file cannot be read, holds another shape or element type, or a cell is not a number.
 pub fn read_matrix(path: &Path, participant: &str) -> Result<Array2<f64>, ReadError> {
+    read_matrix_in(path, participant, None)
+}
+
+/// As [`read_matrix`], and MATLAB `.mat` files (variable `variable`, or the file's only numeric
+/// variable).
+///
+/// # Errors
+/// As [`read_matrix`] and [`super::mat::read_variable`].
+pub fn read_matrix_in(
+    path: &Path,
+    participant: &str,
+    variable: Option<&str>,
+) -> Result<Array2<f64>, ReadError> {
     let name = path.to_string_lossy().to_ascii_lowercase();
-    if name.ends_with(".npy") {
+    if super::cifti::is_pconn(path) {
+        Ok(super::cifti::read_pconn(path, participant)?.matrix)
+    } else if is_mat(path) {
+        let array = super::mat::read_variable(path, participant, variable)?;
+        super::mat::matrix_of(&array, path, participant)
+    } else if name.ends_with(".npy") {
         let shape = npy_shape(path)?;
         if shape.len() != 2 {
             return Err(invalid(path, participant, format!(
@@ -101,7 +124,32 @@ pub fn read_matrix(path: &Path, participant: &str) -> Result<Array2<f64>, ReadEr
     }
 }
 
-/// Reads matrix `index` of an N x R x R `.npy` stack as f64.
+/// Reads a whole stack as N x R x R f64: an N x R x R `.npy`, or a 3D `.mat` variable (R x R x N
+/// or N x R x R, see [`super::mat::stack_axis`]).
+///
+/// # Errors
+/// The file cannot be read or does not hold a stack of square matrices.
+pub fn read_stack_in(path: &Path, variable: Option<&str>) -> Result<Array3<f64>, ReadError> {
+    use super::mat;
+    if !is_mat(path) {
+        return read_stack(path);
+    }
+    let participant = super::nifti::STACK_PARTICIPANT;
+    let array = mat::read_variable(path, participant, variable)?;
+    let axis = mat::stack_axis(&array.variable).ok_or_else(|| ReadError::Format {
+        path: path.to_path_buf(),
+        problem: format!("variable {} is not a stack of square matrices", array.variable.describe()),
+    })?;
+    let count = array.variable.dims[axis];
+    let regions = if axis == 2 { array.variable.dims[0] } else { array.variable.dims[1] };
+    let mut stack = Array3::zeros((count, regions, regions));
+    for index in 0..count {
+        stack.index_axis_mut(ndarray::Axis(0), index).assign(&mat::stack_matrix(&array, axis, index));
+    }
+    Ok(stack)
+}
+
+/// Reads an N x R x R `.npy` stack as f64.
 pub fn read_stack(path: &Path) -> Result<Array3<f64>, ReadError> {
     match read_npy::<f64, ndarray::Ix3>(path) {
         Ok(stack) => Ok(stack),

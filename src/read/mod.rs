@@ -5,9 +5,13 @@
 //! per-format readers of this module one participant at a time (in parallel). This module knows
 //! file formats; it knows nothing of masks, Fisher z or similarity.
 
+pub mod cifti;
 mod cohort;
 mod error;
+pub mod hdf5;
+pub mod mat;
 pub mod matrix;
+pub mod measures;
 pub mod nifti;
 mod similarity;
 mod table;
@@ -17,6 +21,7 @@ pub use cohort::{
     InputSource,
 };
 pub use error::ReadError;
+pub use measures::{discover_measures, MeasureValues, MissingMeasure};
 pub use nifti::{affines_match, format_affine, read_volume};
 pub use similarity::read_similarity;
 pub use table::{read_participants, read_table, ParticipantsTable};

@@ -1,4 +1,5 @@
-//! 3D NIfTI-1 seed maps (`.nii`, `.nii.gz`) read into f32 in file (Fortran) order.
+//! 3D NIfTI-1 seed maps (`.nii`, `.nii.gz`) read into f32 in file (Fortran) order, and merged
+//! 4D files holding one participant per volume along the 4th dimension.
 //!
 //! Any stored numeric type is converted to float with `scl_slope`/`scl_inter` applied as the
 //! NIfTI-1 standard says (slope 0 means no scaling). NIfTI-2 headers are refused with a message.
@@ -136,6 +137,63 @@ pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> 
     Ok(Volume { header: raw.header, dim: raw.dim, affine: raw.affine, values })
 }
 
+/// The number of volumes along the 4th dimension of a NIfTI-1 file, from its header alone
+/// (gunzipping only the first bytes of a `.nii.gz`); 1 for a 3D file.
+///
+/// # Errors
+/// The file cannot be opened or its header cannot be read.
+pub fn frame_count(path: &Path) -> Result<usize, ReadError> {
+    use std::io::{Read, Seek};
+    let io = |source| ReadError::Io { path: path.to_path_buf(), source };
+    let mut file = std::fs::File::open(path).map_err(io)?;
+    let mut magic = Vec::with_capacity(2);
+    (&mut file).take(2).read_to_end(&mut magic).map_err(io)?;
+    file.rewind().map_err(io)?;
+    let limit = NIFTI1_HEADER_BYTES as u64;
+    let mut head = Vec::with_capacity(NIFTI1_HEADER_BYTES);
+    let outcome = if magic == [0x1f, 0x8b] {
+        flate2::read::MultiGzDecoder::new(file).take(limit).read_to_end(&mut head)
+    } else {
+        file.take(limit).read_to_end(&mut head)
+    };
+    let unreadable = |problem: String| ReadError::Format { path: path.to_path_buf(), problem };
+    outcome.map_err(|error| {
+        unreadable(format!("cannot read the NIfTI header ({error}); the file is truncated or corrupt"))
+    })?;
+    if head.len() >= 4 && i32::from_le_bytes([head[0], head[1], head[2], head[3]]) == NIFTI2_SIZEOF_HDR {
+        return Err(unreadable(
+            "is a NIfTI-2 file; strata reads NIfTI-1 seed maps for now (convert with nibabel)".into(),
+        ));
+    }
+    let header =
+        match std::panic::catch_unwind(|| NiftiHeader::from_reader(&head[..])) {
+            Ok(Ok(header)) => header,
+            _ => return Err(unreadable(
+                "cannot read the NIfTI-1 header; the file may be truncated, corrupt, or not a NIfTI image"
+                    .into(),
+            )),
+        };
+    let rank = header.dim[0];
+    if !(4..=7).contains(&rank) {
+        return Ok(1);
+    }
+    Ok(header.dim[4..=rank as usize].iter().map(|&d| d.max(1) as usize).product())
+}
+
+/// Reads a merged 4D file: one 3D volume per participant along the 4th dimension (see
+/// [`read_volume`] for the checks). The stored bytes are held once; each participant's volume is
+/// decoded on demand with [`RawVolume::decode_frame`] or [`RawVolume::gather_frame`].
+///
+/// # Errors
+/// As [`read_volume`]; also a 5th or later dimension larger than 1.
+pub fn read_raw_stack(path: &Path) -> Result<RawVolume, ReadError> {
+    parse_raw(path, STACK_PARTICIPANT, true)
+}
+
+/// The participant named in messages about a file that holds every participant (a merged 4D
+/// NIfTI, a stacked array).
+pub const STACK_PARTICIPANT: &str = "(every participant: one stacked file)";
+
 /// A volume whose voxel values are still in their stored form, decoded on demand: reading only
 /// the masked voxels of each participant avoids converting (and allocating) the whole grid.
 #[derive(Debug)]
@@ -146,6 +204,8 @@ pub struct RawVolume {
     pub dim: [usize; 3],
     /// Voxel-to-world affine, rows of a 4 x 4 matrix.
     pub affine: [[f64; 4]; 4],
+    /// Volumes along the 4th dimension (1 for a 3D file).
+    pub frames: usize,
     bytes: Vec<u8>,
     offset: usize,
     size: usize,
@@ -156,13 +216,43 @@ pub struct RawVolume {
 
 impl RawVolume {
     fn data(&self) -> &[u8] {
-        let voxels = self.dim[0] * self.dim[1] * self.dim[2];
-        &self.bytes[self.offset..self.offset + voxels * self.size]
+        self.frame_data(0)
+    }
+
+    /// The stored bytes of volume `frame` (0-based) along the 4th dimension.
+    fn frame_data(&self, frame: usize) -> &[u8] {
+        let bytes = self.dim[0] * self.dim[1] * self.dim[2] * self.size;
+        let start = self.offset + frame * bytes;
+        &self.bytes[start..start + bytes]
     }
 
     /// Decodes the values of `voxels` (flat file-order indices) into `out`, scaled as NIfTI-1 says.
     pub fn gather(&self, voxels: &[usize], out: &mut [f32]) {
-        let data = self.data();
+        self.gather_frame(0, voxels, out);
+    }
+
+    /// Decodes the whole of volume `frame` (0-based, `< frames`) as a 3D [`Volume`] whose header
+    /// describes one 3D volume.
+    pub fn decode_frame(&self, frame: usize) -> Volume {
+        let voxels = self.dim[0] * self.dim[1] * self.dim[2];
+        let mut values = vec![0.0f32; voxels];
+        decode_values(
+            self.frame_data(frame),
+            self.header.datatype,
+            self.little_endian,
+            self.slope,
+            self.inter,
+            &mut values,
+        );
+        let mut header = self.header.clone();
+        header.dim[0] = 3;
+        header.dim[4..].fill(1);
+        Volume { header, dim: self.dim, affine: self.affine, values }
+    }
+
+    /// Decodes the values of `voxels` of volume `frame` (0-based, `< frames`) into `out`.
+    pub fn gather_frame(&self, frame: usize, voxels: &[usize], out: &mut [f32]) {
+        let data = self.frame_data(frame);
         let size = self.size;
         if self.header.datatype == 16 && self.little_endian && self.slope == 1.0 && self.inter == 0.0 {
             // The common case (float32, little-endian, unscaled): no per-voxel dispatch.
@@ -192,6 +282,16 @@ impl RawVolume {
 /// # Errors
 /// As [`read_volume`].
 pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> {
+    parse_raw(path, participant, false)
+}
+
+/// `sizeof_hdr` of a NIfTI-1 header, also the header's length in bytes (nifti1.h).
+const NIFTI1_HEADER_BYTES: usize = 348;
+
+/// `sizeof_hdr` of a NIfTI-2 header (nifti2.h).
+const NIFTI2_SIZEOF_HDR: i32 = 540;
+
+fn parse_raw(path: &Path, participant: &str, stacked: bool) -> Result<RawVolume, ReadError> {
     let bytes = match read_bytes(path) {
         Ok(bytes) => bytes,
         Err(source) if source.kind() == std::io::ErrorKind::NotFound => {
@@ -207,7 +307,7 @@ pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> 
             ))
         }
     };
-    if bytes.len() >= 4 && i32::from_le_bytes([bytes[0], bytes[1], bytes[2], bytes[3]]) == 540 {
+    if bytes.len() >= 4 && i32::from_le_bytes([bytes[0], bytes[1], bytes[2], bytes[3]]) == NIFTI2_SIZEOF_HDR {
         return Err(invalid(
             path,
             participant,
@@ -216,7 +316,8 @@ pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> 
     }
     // The NIfTI decoder is third-party code fed with user files: a malformed header must become
     // an error naming the file, never a crash.
-    let parsed = std::panic::catch_unwind(|| NiftiHeader::from_reader(&bytes[..bytes.len().min(348)]));
+    let parsed =
+        std::panic::catch_unwind(|| NiftiHeader::from_reader(&bytes[..bytes.len().min(NIFTI1_HEADER_BYTES)]));
     let header = match parsed {
         Ok(Ok(header)) => header,
         Ok(Err(error)) => {
@@ -235,12 +336,16 @@ pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> 
         ));
     }
     let dims: Vec<usize> = header.dim[1..=rank as usize].iter().map(|&d| d as usize).collect();
-    let extra: usize = dims.iter().skip(3).product();
+    let shape = || dims.iter().map(usize::to_string).collect::<Vec<_>>().join("x");
+    let frames = if stacked { dims.get(3).copied().unwrap_or(1).max(1) } else { 1 };
+    let extra: usize = dims.iter().skip(if stacked { 4 } else { 3 }).product();
     if dims.len() < 3 || extra > 1 {
-        return Err(invalid(path, participant, format!(
-            "image of shape {}; expected one 3D seed map per participant (split 4D files into 3D volumes first)",
-            dims.iter().map(usize::to_string).collect::<Vec<_>>().join("x")
-        )));
+        let problem = if stacked {
+            format!("image of shape {}; a merged file holds one 3D volume per participant along the 4th dimension and nothing beyond it", shape())
+        } else {
+            format!("image of shape {}; expected one 3D seed map per participant, or a single merged 4D file (participants along the 4th dimension, in participants-table order) as the only input", shape())
+        };
+        return Err(invalid(path, participant, problem));
     }
     let dim = [dims[0], dims[1], dims[2]];
     let size = datatype_size(header.datatype).ok_or_else(|| {
@@ -254,18 +359,19 @@ pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> 
         )
     })?;
     let voxels = dim[0] * dim[1] * dim[2];
-    let offset = (header.vox_offset.max(0.0) as usize).max(348);
-    let needed = voxels * size;
-    if bytes.len() < offset + needed {
+    let offset = (header.vox_offset.max(0.0) as usize).max(NIFTI1_HEADER_BYTES);
+    let needed = voxels.saturating_mul(size).saturating_mul(frames);
+    if bytes.len() < offset.saturating_add(needed) {
         return Err(invalid(
             path,
             participant,
             format!(
-                "{} bytes of voxel data for a {}x{}x{} grid that needs {needed}; the file is truncated",
+                "{} bytes of voxel data for a {}x{}x{}{} grid that needs {needed}; the file is truncated",
                 bytes.len().saturating_sub(offset),
                 dim[0],
                 dim[1],
-                dim[2]
+                dim[2],
+                if stacked { format!("x{frames}") } else { String::new() }
             ),
         ));
     }
@@ -279,7 +385,7 @@ pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> 
         (1.0, 0.0)
     };
     let little_endian = header.endianness == nifti::Endianness::Little;
-    Ok(RawVolume { header, dim, affine, bytes, offset, size, little_endian, slope, inter })
+    Ok(RawVolume { header, dim, affine, frames, bytes, offset, size, little_endian, slope, inter })
 }
 
 /// True if two affines agree within [`AFFINE_TOLERANCE_MM`].

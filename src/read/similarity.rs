@@ -68,6 +68,8 @@ pub fn read_similarity(path: &Path, table: &ParticipantsTable) -> Result<(Cohort
         values[[i, i]] = 1.0;
     }
     let cohort = Cohort {
+        variable: None,
+        measures: None,
         table: table.clone(),
         participant_ids: ids.iter().map(|id| id.to_string()).collect(),
         sources: (0..n)

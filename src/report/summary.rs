@@ -72,6 +72,11 @@ pub enum Warning {
         /// Median adjusted Rand index over the subsamples.
         median_ari: f64,
     },
+    /// Participants left out of a measures run because a measure is missing (`n/a` or empty).
+    MissingMeasures {
+        /// (participant, column) of every missing value.
+        entries: Vec<(String, String)>,
+    },
 }
 
 /// A community whose mean best-match Jaccard under resampling falls below this is flagged as
@@ -110,6 +115,20 @@ impl fmt::Display for Warning {
             ),
             Warning::ContrastSkipped { scope, reason } => {
                 write!(f, "{scope}: no contrast maps written: {reason}")
+            }
+            Warning::MissingMeasures { entries } => {
+                let mut participants: Vec<&str> = entries.iter().map(|(p, _)| p.as_str()).collect();
+                participants.dedup();
+                let shown: Vec<String> =
+                    entries.iter().take(20).map(|(p, c)| format!("{p} ({c})")).collect();
+                write!(
+                    f,
+                    "{} participant(s) left out of the analysis for missing measure values: {}{}; \
+                     fill the values in or leave the measure out of --measures",
+                    participants.len(),
+                    shown.join(", "),
+                    if entries.len() > 20 { format!(" and {} more", entries.len() - 20) } else { String::new() }
+                )
             }
             Warning::SingleCommunity => write!(
                 f,
