@@ -119,12 +119,16 @@ fn demo_reports_load_cleanly_in_chromium() {
         return;
     }
     let dir = tempfile::tempdir().unwrap();
-    let output = strata(&["demo", "--out", "demo", "--kind", "both", "--quiet"], dir.path());
+    let output = strata(
+        &["demo", "--out", "demo", "--kind", "both", "--quiet", "--null-draws", "19", "--subsamples", "10"],
+        dir.path(),
+    );
     assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
     // Region matrices: similarity, composition, sweep, co-assignment, network profiles,
-    // covariates (age, fd_mean, followup_isi of the demo table) and the contrast matrices.
+    // covariates (age, fd_mean, followup_isi of the demo table), the null distribution, the
+    // subsample ARIs and the contrast matrices.
     let matrices = check_page(&dir.path().join("demo/results-matrices"), "demo-matrices");
-    assert_eq!(matrices, 7, "figures of the matrix report");
+    assert_eq!(matrices, 9, "figures of the matrix report");
     // Seed maps: the five participant-level figures (similarity, composition, sweep,
     // co-assignment, covariates) and one mosaic per scope (the whole cohort and each community
     // the run found).
@@ -134,7 +138,8 @@ fn demo_reports_load_cleanly_in_chromium() {
     )
     .unwrap();
     let communities = summary["community_count"].as_u64().unwrap() as usize;
-    assert_eq!(seedmaps, 5 + 1 + communities, "figures of the seed-map report");
+    // Plus the null distribution and the subsample ARIs.
+    assert_eq!(seedmaps, 5 + 2 + 1 + communities, "figures of the seed-map report");
 }
 
 #[test]

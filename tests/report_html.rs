@@ -38,6 +38,12 @@ fn run(dir: &Path, inputs: &str, contrast: &str, out: &str) -> PathBuf {
             "--out",
             out,
             "--quiet",
+            // No null test and no stability check: their report sections are tested by
+            // planting their files and keys (optional_sections_appear_only_with_their_files_and_keys).
+            "--null-draws",
+            "0",
+            "--subsamples",
+            "0",
         ],
         dir,
     );

@@ -524,7 +524,11 @@ impl RunArgs {
             placeholder: placeholder.into(),
             key: flag.replace('-', "_"),
         };
-        if self.inputs.is_empty() && self.similarity.is_none() {
+        if self.inputs.is_empty()
+            && self.similarity.is_none()
+            && self.measures.is_empty()
+            && self.measures_table.is_none()
+        {
             return Err(missing("inputs", "GLOB"));
         }
         let participants = self.participants.ok_or_else(|| missing("participants", "TSV"))?;

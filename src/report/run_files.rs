@@ -453,8 +453,12 @@ pub fn read_null_test(summary: &Value) -> Option<NullTest> {
         quantiles,
         values,
         supported: test.get("subgroups_supported").and_then(Value::as_bool),
+        // The run's own sentence describes its own null test: used only when the run recorded a
+        // verdict (top-level `subgroups_supported`), not for a `null_test` added afterwards.
         sentence: summary
-            .get("verdict")
+            .get("subgroups_supported")
+            .filter(|verdict| verdict.is_boolean())
+            .and_then(|_| summary.get("verdict"))
             .and_then(Value::as_str)
             .filter(|text| !text.is_empty())
             .map(str::to_string),
