@@ -111,6 +111,10 @@ pub struct RunConfig {
     pub random_graphs: usize,
     /// False-discovery level for counting surviving features.
     pub alpha: f64,
+    /// Participants-table columns given with `--covariates`: tested for balance across
+    /// communities (`covariates.tsv`). `None` when the flag is absent: every column other than
+    /// `participant_id` and the group column is tested.
+    pub covariates: Option<Vec<String>>,
     /// Run seed.
     pub seed: u64,
     /// Worker threads (0 = one per core).
@@ -238,6 +242,27 @@ pub enum GraphRule {
 /// The default neighbour counts of k-nearest-neighbour sweeps.
 pub const DEFAULT_NEIGHBOURS_TEXT: &str = "5:30:5";
 
+/// Parses a comma-separated list of participants-table columns (`age,sex,mean_fd`) for `flag`.
+pub fn parse_columns(flag: &str, text: &str) -> Result<Vec<String>, ConfigError> {
+    let columns: Vec<String> =
+        text.split(',').map(str::trim).filter(|part| !part.is_empty()).map(str::to_string).collect();
+    if columns.is_empty() {
+        return Err(invalid(
+            flag,
+            format!("no column given in '{text}'; for example {flag} age,sex,mean_fd"),
+        ));
+    }
+    for (index, column) in columns.iter().enumerate() {
+        if columns[..index].contains(column) {
+            return Err(invalid(flag, format!("column '{column}' is listed twice; list each column once")));
+        }
+        if column == "participant_id" {
+            return Err(invalid(flag, "participant_id identifies participants and cannot be a covariate"));
+        }
+    }
+    Ok(columns)
+}
+
 /// Parses `A,B` into the contrast levels.
 pub fn parse_contrast(text: &str) -> Result<(String, String), ConfigError> {
     let parts: Vec<&str> = text.split(',').map(str::trim).collect();
@@ -289,6 +314,7 @@ impl RunConfig {
             consensus_threshold: DEFAULT_CONSENSUS_THRESHOLD,
             random_graphs: DEFAULT_RANDOM_GRAPHS,
             alpha: DEFAULT_ALPHA,
+            covariates: None,
             seed: DEFAULT_SEED,
             threads: 0,
         }
@@ -312,6 +338,12 @@ impl RunConfig {
             return Err(invalid(
                 "--consensus-threshold",
                 format!("{} must lie strictly between 0 and 1", self.consensus_threshold),
+            ));
+        }
+        if let Some(column) = self.covariates.iter().flatten().find(|column| **column == self.group_column) {
+            return Err(invalid(
+                "--covariates",
+                format!("'{column}' is the --group-column; the group enters every comparison already, list other columns"),
             ));
         }
         if !(self.alpha > 0.0 && self.alpha < 1.0) {

@@ -157,6 +157,19 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             }
         };
         let groups = group_labels(config, &cohort)?;
+        if let Some(missing) =
+            config.covariates.iter().flatten().find(|column| cohort.table.column(column).is_none())
+        {
+            return Err(ConfigError::Invalid {
+                flag: "--covariates".into(),
+                message: format!(
+                    "{}: no column '{missing}'; the table has: {}",
+                    cohort.table.path().display(),
+                    cohort.table.columns().join(", ")
+                ),
+            }
+            .into());
+        }
         Ok((cohort, groups, given))
     })?;
 
@@ -233,6 +246,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         warnings
             .push(Warning::MissingGroupLabel { column: config.group_column.clone(), participants: missing });
     }
+
+    timings.time(log, "balance", || {
+        write_balance(config, &output, &cohort, &groups.labels, &communities, &mut warnings)
+    })?;
 
     let comparisons = match &features {
         Some(features) => {
@@ -322,6 +339,59 @@ fn collect_community_warnings(
     if communities.partition.community_count() <= 1 {
         warnings.push(Warning::SingleCommunity);
     }
+}
+
+/// composition.tsv and covariates.tsv (`stats::balance`), with a warning per covariate that
+/// differs across communities.
+fn write_balance(
+    config: &RunConfig,
+    output: &OutputFolder,
+    cohort: &Cohort,
+    labels: &[Option<String>],
+    communities: &CommunityResult,
+    warnings: &mut Vec<Warning>,
+) -> Result<(), Error> {
+    use crate::report::balance::balance_table;
+    let membership = &communities.partition.membership;
+    let labels: Vec<Option<&str>> = labels.iter().map(Option::as_deref).collect();
+    let composition =
+        stats::balance::composition_tests(&config.group_column, membership, &labels, config.seed);
+    balance_table(&composition).write(&output.path().join("composition.tsv"))?;
+    let table = &cohort.table;
+    let excluded =
+        ["participant_id", config.group_column.as_str(), config.match_column.as_deref().unwrap_or("")];
+    let columns: Vec<String> = match &config.covariates {
+        Some(columns) => columns.clone(),
+        None => table.columns().iter().filter(|c| !excluded.contains(&c.as_str())).cloned().collect(),
+    };
+    let mut rows = Vec::new();
+    for (index, column) in columns.iter().enumerate() {
+        let values = table.column(column).ok_or_else(|| ConfigError::Invalid {
+            flag: "--covariates".into(),
+            message: format!(
+                "{}: no column '{column}'; the table has: {}",
+                table.path().display(),
+                table.columns().join(", ")
+            ),
+        })?;
+        let (tests, imbalance) = stats::balance::covariate_tests(
+            column,
+            &values,
+            membership,
+            config.alpha,
+            config.seed,
+            index as u64,
+        );
+        rows.extend(tests);
+        if let Some(imbalance) = imbalance {
+            warnings.push(Warning::CovariateImbalance {
+                column: imbalance.variable,
+                description: imbalance.description,
+            });
+        }
+    }
+    balance_table(&rows).write(&output.path().join("covariates.tsv"))?;
+    Ok(())
 }
 
 /// Cohort rows of `community` (0 = unassigned).

@@ -199,6 +199,11 @@ pub struct RunArgs {
     /// False-discovery level used to count surviving features in the tables.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA, help_heading = "Comparison")]
     pub alpha: f64,
+    /// Participants-table columns (numeric or categorical, `n/a` for missing) tested for balance
+    /// across communities in covariates.tsv. Default: every column other than participant_id and
+    /// --group-column.
+    #[arg(long, value_name = "COLUMN,...", help_heading = "Comparison")]
+    pub covariates: Option<String>,
 
     /// How the sweep's participant graphs are cut from the similarity matrix: density
     /// (strongest fraction of all pairs), knn or mutual-knn (each participant's k most similar),
@@ -301,6 +306,11 @@ impl RunArgs {
             consensus_threshold: self.consensus_threshold,
             random_graphs: self.random_graphs,
             alpha: self.alpha,
+            covariates: self
+                .covariates
+                .as_deref()
+                .map(|text| config::parse_columns("--covariates", text))
+                .transpose()?,
             seed: self.seed,
             threads: self.threads,
         }

@@ -5,6 +5,7 @@
 //! `summary.json` for scripts and (later) the HTML report. Every warning is a variant of
 //! [`Warning`], whose text gives the likely cause and what to try.
 
+pub mod balance;
 mod log;
 mod output;
 mod provenance;

@@ -41,6 +41,13 @@ pub enum Warning {
     },
     /// The consensus found a single community.
     SingleCommunity,
+    /// A participants-table column differs across communities (`covariates.tsv`).
+    CovariateImbalance {
+        /// The column.
+        column: String,
+        /// What differs, in words, with the test's p and effect size.
+        description: String,
+    },
 }
 
 impl fmt::Display for Warning {
@@ -75,6 +82,11 @@ impl fmt::Display for Warning {
                 f,
                 "the consensus found one community: no graph of the sweep showed subgroups that held together; \
                  the cohort may be homogeneous (no evidence of subgroups at these settings), or try a sparser --densities range, a kNN sweep (--graph knn) or --method leiden"
+            ),
+            Warning::CovariateImbalance { column, description } => write!(
+                f,
+                "{description}: the subgroups may partly reflect {column} rather than connectivity alone; \
+                 check its values (covariates.tsv) before reading the subgroup maps as connectivity differences"
             ),
         }
     }

@@ -13,7 +13,6 @@ use super::contingency::{
     chi_square_independence, fisher_exact, monte_carlo_chi_square, SMALL_EXPECTED_COUNT,
 };
 use super::oneway::{kruskal_wallis, one_way_anova};
-use crate::report::tables::format_number;
 
 /// Draws of the Monte Carlo p reported when an expected count is below
 /// [`SMALL_EXPECTED_COUNT`]: with 9,999 draws the smallest attainable p is 1e-4 and the Monte
@@ -24,26 +23,30 @@ pub const MONTE_CARLO_DRAWS: usize = 9_999;
 /// as an identifier or free text and not tested (a chi-square test on it says nothing).
 pub const MAX_LEVEL_SHARE: f64 = 0.5;
 
+/// A column of whole numbers with at most this many distinct values is a coded category (site
+/// 1/2/3, sex 1/2), not a measurement, and is tested as categorical (strata's rule; counts with
+/// few values, such as a number of prior episodes 0-3, are then tested as categories too).
+pub const MAX_CODED_LEVELS: usize = 5;
+
 /// The value BIDS uses for a missing table cell.
 const MISSING: &str = "n/a";
 
-/// The columns of `composition.tsv` and `covariates.tsv`, in order.
-pub const BALANCE_COLUMNS: [&str; 14] = [
-    "variable",
-    "kind",
-    "scope",
-    "test",
-    "n",
-    "n_missing",
-    "statistic",
-    "dof",
-    "dof_denominator",
-    "p",
-    "p_exact",
-    "p_exact_method",
-    "effect_size",
-    "effect_size_name",
-];
+/// A number for a sentence: three significant digits, no trailing zeros (`0.00312`, `41.5`).
+fn format_number(value: f64) -> String {
+    if !value.is_finite() {
+        return MISSING.into();
+    }
+    if value == 0.0 {
+        return "0".into();
+    }
+    let decimals = (2 - value.abs().log10().floor() as i32).clamp(0, 12) as usize;
+    let text = format!("{value:.decimals$}");
+    if text.contains('.') {
+        text.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        text
+    }
+}
 
 /// One test of a balance table (one row of `composition.tsv` or `covariates.tsv`).
 #[derive(Debug, Clone, PartialEq)]
@@ -81,28 +84,6 @@ pub struct BalanceTest {
 }
 
 impl BalanceTest {
-    /// The row's cells in the order of [`BALANCE_COLUMNS`] plus `note`.
-    pub fn cells(&self) -> Vec<String> {
-        let text = |value: &str| if value.is_empty() { MISSING.to_string() } else { value.to_string() };
-        vec![
-            self.variable.clone(),
-            self.kind.to_string(),
-            self.scope.clone(),
-            self.test.to_string(),
-            self.n.to_string(),
-            self.n_missing.to_string(),
-            format_number(self.statistic),
-            format_number(self.dof),
-            format_number(self.dof_denominator),
-            format_number(self.p),
-            format_number(self.p_exact),
-            text(self.p_exact_method),
-            format_number(self.effect_size),
-            text(self.effect_size_name),
-            text(&self.note),
-        ]
-    }
-
     fn untested(variable: &str, kind: &'static str, scope: &str, note: String) -> BalanceTest {
         BalanceTest {
             variable: variable.to_string(),
@@ -124,11 +105,6 @@ impl BalanceTest {
     }
 }
 
-/// The header of a balance table: [`BALANCE_COLUMNS`] and `note`.
-pub fn balance_header() -> Vec<&'static str> {
-    BALANCE_COLUMNS.iter().copied().chain(std::iter::once("note")).collect()
-}
-
 /// A covariate that differs across communities, in words.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Imbalance {
@@ -145,7 +121,8 @@ pub fn is_missing(value: &str) -> bool {
     value.is_empty() || value == MISSING
 }
 
-/// The numeric values of a column when every non-missing cell parses as a finite number.
+/// The numeric values of a column when every non-missing cell parses as a finite number and the
+/// column is not a coded category (whole numbers with at most [`MAX_CODED_LEVELS`] values).
 pub fn numeric_values(values: &[&str]) -> Option<Vec<Option<f64>>> {
     let parsed: Vec<Option<f64>> = values
         .iter()
@@ -158,7 +135,11 @@ pub fn numeric_values(values: &[&str]) -> Option<Vec<Option<f64>>> {
         })
         .collect();
     let all_parsed = values.iter().zip(&parsed).all(|(value, parsed)| is_missing(value) || parsed.is_some());
-    (all_parsed && parsed.iter().any(Option::is_some)).then_some(parsed)
+    let mut distinct: Vec<f64> = parsed.iter().flatten().copied().collect();
+    distinct.sort_by(f64::total_cmp);
+    distinct.dedup();
+    let coded = distinct.iter().all(|value| value.fract() == 0.0) && distinct.len() <= MAX_CODED_LEVELS;
+    (all_parsed && !distinct.is_empty() && !coded).then_some(parsed)
 }
 
 /// Community numbers 1..=k present in `membership` (0, unassigned, left out).
@@ -564,7 +545,6 @@ mod tests {
         approx::assert_relative_eq!(rows[0].effect_size, (7.2f64 / 20.0).sqrt(), max_relative = 1e-12);
         assert_eq!(rows[0].p_exact_method, "");
         assert_eq!(rows[1].scope, "community 1");
-        assert_eq!(rows[0].cells().len(), balance_header().len());
     }
 
     #[test]
@@ -589,6 +569,10 @@ mod tests {
             "{}",
             imbalance.description
         );
+        // Site codes 1/2 are a category, not a measurement: one chi-square row.
+        let sites = ["1", "2", "1", "2", "1", "2", "1", "2", "1", "2", "1", "2", "1"];
+        let (rows, _) = covariate_tests("site", &sites, &membership, 0.05, 1, 2);
+        assert_eq!((rows.len(), rows[0].test, rows[0].kind), (1, "chi_square", "categorical"));
         // An identifier-like column is not tested.
         let ids = ["a", "b", "c", "d", "e", "f", "g", "h", "i", "j", "k", "l", "m"];
         let (rows, imbalance) = covariate_tests("scanner_id", &ids, &membership, 0.05, 1, 1);

@@ -3,7 +3,7 @@
 //! One design matrix X (n participants x k columns) serves every feature, so it is factorised
 //! once (thin QR through faer) and each feature only costs a projection of its n values on the
 //! k columns of Q: no per-feature refit. The design itself (intercept, group indicators,
-//! covariates) is assembled by [`super::design`]; which rows enter a model is the caller's choice.
+//! covariates) is assembled by the caller, as is the choice of which rows enter a model.
 
 use faer::linalg::solvers::DenseSolveCore;
 use faer::{Mat, Side};

@@ -1,0 +1,102 @@
+//! The real binary: `composition.tsv` and `covariates.tsv` of a run, the covariate warning in
+//! words, and the `--covariates` errors.
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+fn strata(args: &[&str], cwd: &Path) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
+}
+
+fn rows(path: &Path) -> Vec<Vec<String>> {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|_| panic!("{} is written", path.display()));
+    text.lines().map(|line| line.split('\t').map(str::to_string).collect()).collect()
+}
+
+const HEADER: &str = "variable\tkind\tscope\ttest\tn\tn_missing\tstatistic\tdof\tdof_denominator\tp\tp_exact\tp_exact_method\teffect_size\teffect_size_name\tnote";
+
+fn small_cohort_args<'a>(out: &'a str, extra: &[&'a str]) -> Vec<&'a str> {
+    let mut args = vec![
+        "run",
+        "--inputs",
+        "demo-data/small-matrices/matrices/sub-*",
+        "--participants",
+        "demo-data/small-matrices/participants.tsv",
+        "--group-column",
+        "diagnosis",
+        "--contrast",
+        "insomnia,control",
+        "--quiet",
+        "--out",
+        out,
+    ];
+    args.extend_from_slice(extra);
+    args
+}
+
+#[test]
+fn demo_run_writes_balance_tables_and_flags_a_covariate_in_words() {
+    let dir = tempfile::tempdir().unwrap();
+    let output = strata(&["demo", "--out", "demo", "--kind", "matrices"], dir.path());
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(output.status.success(), "{stderr}");
+    let results = dir.path().join("demo/results-matrices");
+    let composition = rows(&results.join("composition.tsv"));
+    assert_eq!(composition[0].join("\t"), HEADER);
+    // The overall test first, then one row per community (the demo finds 3).
+    assert_eq!(composition.len(), 1 + 1 + 3);
+    assert_eq!(&composition[1][..4], ["diagnosis", "categorical", "communities", "chi_square"]);
+    // The demo plants half insomnia in every subgroup: no evidence against balance.
+    let p: f64 = composition[1][9].parse().unwrap();
+    assert!(p > 0.05, "composition p {p}");
+    let covariates = rows(&results.join("covariates.tsv"));
+    assert_eq!(covariates[0].join("\t"), HEADER);
+    let tests: Vec<(&str, &str)> =
+        covariates[1..].iter().map(|row| (row[0].as_str(), row[3].as_str())).collect();
+    assert_eq!(
+        tests,
+        [
+            ("age", "one_way_anova"),
+            ("age", "kruskal_wallis"),
+            ("sex", "chi_square"),
+            ("fd_mean", "one_way_anova"),
+            ("fd_mean", "kruskal_wallis"),
+            ("site", "chi_square"),
+            ("followup_isi", "one_way_anova"),
+            ("followup_isi", "kruskal_wallis"),
+        ]
+    );
+    // The demo's follow-up score differs by planted subgroup: described in words, in the table
+    // and as a warning.
+    let followup =
+        covariates.iter().find(|row| row[0] == "followup_isi" && row[3] == "kruskal_wallis").unwrap();
+    assert!(followup[14].contains("has higher followup_isi (median"), "{}", followup[14]);
+    assert!(stderr.contains("the subgroups may partly reflect followup_isi"), "{stderr}");
+}
+
+#[test]
+fn covariates_flag_selects_columns_and_refuses_unknown_ones() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("results");
+    let out = out.to_str().unwrap();
+    let output = strata(&small_cohort_args(out, &["--covariates", "age,sex"]), root);
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    let covariates = rows(&Path::new(out).join("covariates.tsv"));
+    let variables: Vec<&str> = covariates[1..].iter().map(|row| row[0].as_str()).collect();
+    assert!(variables.iter().all(|v| *v == "age" || *v == "sex"), "{variables:?}");
+
+    let missing = dir.path().join("missing");
+    let output = strata(&small_cohort_args(missing.to_str().unwrap(), &["--covariates", "age,motion"]), root);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("--covariates"), "{stderr}");
+    assert!(stderr.contains("no column 'motion'; the table has: participant_id, diagnosis, age"), "{stderr}");
+    assert!(!missing.exists());
+
+    let output =
+        strata(&small_cohort_args(missing.to_str().unwrap(), &["--covariates", "age,diagnosis"]), root);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("'diagnosis' is the --group-column"), "{stderr}");
+}
