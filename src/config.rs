@@ -111,9 +111,10 @@ pub struct RunConfig {
     pub random_graphs: usize,
     /// False-discovery level for counting surviving features.
     pub alpha: f64,
-    /// Participants-table columns given with `--covariates`: tested for balance across
-    /// communities (`covariates.tsv`). `None` when the flag is absent: every column other than
-    /// `participant_id` and the group column is tested.
+    /// Participants-table columns given with `--covariates`: the comparison model becomes the
+    /// linear model group + covariates, and these columns are tested for balance across
+    /// communities (`covariates.tsv`). `None` when the flag is absent: Welch comparisons, and
+    /// every column other than `participant_id` and the group column tested for balance.
     pub covariates: Option<Vec<String>>,
     /// Run seed.
     pub seed: u64,

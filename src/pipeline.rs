@@ -256,7 +256,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             log.note("group comparisons and maps");
             let maps_dir = output.subdir("maps")?;
             timings.time(log, "compare", || {
-                compare_and_write(config, features, &groups, &communities, &maps_dir, &mut warnings)
+                compare_and_write(config, &cohort, features, &groups, &communities, &maps_dir, &mut warnings)
             })?
         }
         None => not_compared(config, &groups, &communities),
@@ -443,8 +443,10 @@ fn not_compared(
         .collect()
 }
 
+#[allow(clippy::too_many_arguments)]
 fn compare_and_write(
     config: &RunConfig,
+    cohort: &Cohort,
     features: &Features,
     groups: &Groups,
     communities: &CommunityResult,
@@ -455,6 +457,7 @@ fn compare_and_write(
     let space = &features.space;
     let matrix = &features.matrix;
     let mut summaries = Vec::new();
+    let covariates = covariate_columns(config, cohort, warnings);
     for (scope, rows) in scopes(communities) {
         let scope_words =
             if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
@@ -512,6 +515,21 @@ fn compare_and_write(
                 peak: String::new(),
                 peak_t: f64::NAN,
             });
+            continue;
+        }
+        if let Some(columns) = &covariates {
+            let counts = (rows_a.len(), rows_b.len());
+            let summary = compare_with_covariates(
+                config,
+                features,
+                columns,
+                (&rows_a, &rows_b),
+                &scope,
+                maps_dir,
+                &base_sidecar,
+                warnings,
+            )?;
+            summaries.push(summary.unwrap_or_else(|reason| skipped(&scope, counts, reason)));
             continue;
         }
         let comparison = stats::welch_comparison(matrix, &rows_a, &rows_b).map_err(|error| {
@@ -580,6 +598,134 @@ fn compare_and_write(
         });
     }
     Ok(summaries)
+}
+
+/// The `--covariates` columns of the comparison model (None without the flag), with a warning
+/// naming the participants left out for a missing value.
+fn covariate_columns(
+    config: &RunConfig,
+    cohort: &Cohort,
+    warnings: &mut Vec<Warning>,
+) -> Option<Vec<stats::model::CovariateColumn>> {
+    let names = config.covariates.as_ref()?;
+    let columns: Vec<_> = names
+        .iter()
+        .filter_map(|name| {
+            cohort.table.column(name).map(|cells| stats::model::CovariateColumn::new(name, &cells))
+        })
+        .collect();
+    let missing = stats::model::rows_with_missing(&columns, cohort.participant_ids.len());
+    if !missing.is_empty() {
+        warnings.push(Warning::MissingCovariate {
+            columns: names.clone(),
+            participants: missing.iter().map(|&row| cohort.participant_ids[row].clone()).collect(),
+        });
+    }
+    Some(columns)
+}
+
+/// The row of `comparisons.tsv` for a scope without maps.
+fn skipped(scope: &str, (count_a, count_b): (usize, usize), reason: String) -> ComparisonSummary {
+    ComparisonSummary {
+        scope: scope.to_string(),
+        count_a,
+        count_b,
+        written: false,
+        reason: Some(reason),
+        significant_features: 0,
+        max_abs_t: f64::NAN,
+        peak: String::new(),
+        peak_t: f64::NAN,
+    }
+}
+
+/// The A - B contrast of one scope in the linear model `group + covariates` (`stats::glm`):
+/// adjusted difference, t (uniform dof), p and q maps. `Ok(Err(reason))` when the model cannot
+/// be fitted in this scope (too few participants, a covariate constant within it).
+#[allow(clippy::too_many_arguments)]
+fn compare_with_covariates(
+    config: &RunConfig,
+    features: &Features,
+    columns: &[stats::model::CovariateColumn],
+    (rows_a, rows_b): (&[usize], &[usize]),
+    scope: &str,
+    maps_dir: &Path,
+    base_sidecar: &serde_json::Value,
+    warnings: &mut Vec<Warning>,
+) -> Result<Result<ComparisonSummary, String>, Error> {
+    let (level_a, level_b) = &config.contrast;
+    let scope_words = if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
+    let (design, rows, group) = stats::model::group_design(rows_a, rows_b, columns);
+    let count_a = rows.iter().filter(|row| rows_a.contains(row)).count();
+    let count_b = rows.len() - count_a;
+    let fitted = stats::fit_linear_model(&features.matrix, &rows, &design).and_then(|model| {
+        let mut weights = vec![0.0; design.column_count()];
+        weights[group] = 1.0;
+        stats::contrast_t(&model, &weights)
+    });
+    let test = match fitted {
+        Ok(test) if count_a >= 2 && count_b >= 2 => test,
+        Ok(_) | Err(_) => {
+            let reason = match fitted {
+                Err(error) => error.to_string(),
+                Ok(_) => format!("fewer than 2 participants with covariates in a level ({level_a}: {count_a}, {level_b}: {count_b})"),
+            };
+            warnings.push(Warning::ContrastSkipped { scope: scope_words, reason: reason.clone() });
+            return Ok(Err(reason));
+        }
+    };
+    let sidecar = with(
+        &with(base_sidecar, maps::contrast_fields(level_a, count_a, level_b, count_b)),
+        json!({
+            "Test": "general linear model, t test of the group coefficient, two-sided",
+            "Model": design.columns,
+        }),
+    );
+    let p_map: Vec<f32> = test.p.iter().map(|&p| p as f32).collect();
+    let q_map: Vec<f32> = test.q.iter().map(|&q| q as f32).collect();
+    let outputs: [(Statistic, &[f32], &str); 4] = [
+        (
+            Statistic::Difference,
+            &test.estimate,
+            "Covariate-adjusted mean Fisher z difference (group coefficient)",
+        ),
+        (Statistic::T, &test.t, "t of the group coefficient"),
+        (Statistic::P, &p_map, "Two-sided uncorrected p of the group coefficient"),
+        (Statistic::Q, &q_map, "Benjamini-Hochberg q across all features of this map"),
+    ];
+    for (statistic, values, description) in outputs {
+        let name = MapName::builder().community(scope).contrast(level_a, level_b).build_for(statistic)?;
+        let extra = json!({"Description": format!("{description} of {level_a} - {level_b}, {scope_words}")});
+        maps::write_map(
+            maps_dir,
+            &features.space,
+            &name,
+            statistic,
+            values,
+            &with(&sidecar, extra),
+            Some(test.dof),
+        )?;
+    }
+    let significant = test.q.iter().filter(|&&q| q < config.alpha).count();
+    let (peak_index, peak_t) = test
+        .t
+        .iter()
+        .enumerate()
+        .filter(|(_, t)| t.is_finite())
+        .max_by(|(ia, a), (ib, b)| a.abs().total_cmp(&b.abs()).then(ib.cmp(ia)))
+        .map(|(index, &t)| (index, f64::from(t)))
+        .unwrap_or((0, f64::NAN));
+    Ok(Ok(ComparisonSummary {
+        scope: scope.to_string(),
+        count_a,
+        count_b,
+        written: true,
+        reason: None,
+        significant_features: significant,
+        max_abs_t: peak_t.abs(),
+        peak: describe_feature(&features.space, peak_index),
+        peak_t,
+    }))
 }
 
 /// Merges two JSON objects (the second wins).

@@ -100,3 +100,27 @@ fn covariates_flag_selects_columns_and_refuses_unknown_ones() {
     assert_eq!(output.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("'diagnosis' is the --group-column"), "{stderr}");
 }
+
+#[test]
+fn covariates_turn_the_comparison_into_a_linear_model() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("results");
+    let out = out.to_str().unwrap();
+    let output = strata(&small_cohort_args(out, &["--covariates", "age,sex,fd_mean"]), root);
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    let maps = Path::new(out).join("maps");
+    let sidecar: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(maps.join("comm-all_contrast-insomniaVsControl_t.json")).unwrap(),
+    )
+    .unwrap();
+    // Design columns (treatment coding, first level F the reference): hand count 5 parameters,
+    // 24 participants with every value in the committed cohort, so 24 - 5 = 19 residual dof.
+    assert_eq!(sidecar["Model"], serde_json::json!(["intercept", "group", "age", "sex[M]", "fd_mean"]));
+    assert_eq!(sidecar["DegreesOfFreedom"].as_f64(), Some(19.0));
+    // The model writes estimate, t, p, q; Welch-only maps (dof per feature, Hedges g) are absent.
+    assert!(maps.join("comm-all_contrast-insomniaVsControl_diff.npy").exists());
+    assert!(maps.join("comm-all_contrast-insomniaVsControl_q.npy").exists());
+    assert!(!maps.join("comm-all_contrast-insomniaVsControl_g.npy").exists());
+    assert!(!maps.join("comm-all_contrast-insomniaVsControl_dof.npy").exists());
+}

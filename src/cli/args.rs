@@ -199,9 +199,11 @@ pub struct RunArgs {
     /// False-discovery level used to count surviving features in the tables.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA, help_heading = "Comparison")]
     pub alpha: f64,
-    /// Participants-table columns (numeric or categorical, `n/a` for missing) tested for balance
-    /// across communities in covariates.tsv. Default: every column other than participant_id and
-    /// --group-column.
+    /// Participants-table columns (numeric or categorical, `n/a` for missing) entering the
+    /// comparison model: each scope's A - B contrast becomes a linear model group + covariates
+    /// (categorical columns dummy-coded; participants with n/a left out, with a warning), and
+    /// only these columns are tested for balance in covariates.tsv. Default: Welch t maps, and
+    /// every column other than participant_id and --group-column tested for balance.
     #[arg(long, value_name = "COLUMN,...", help_heading = "Comparison")]
     pub covariates: Option<String>,
 

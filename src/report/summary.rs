@@ -41,6 +41,13 @@ pub enum Warning {
     },
     /// The consensus found a single community.
     SingleCommunity,
+    /// Participants without a value in a `--covariates` column are left out of the comparisons.
+    MissingCovariate {
+        /// The covariate columns.
+        columns: Vec<String>,
+        /// Who.
+        participants: Vec<String>,
+    },
     /// A participants-table column differs across communities (`covariates.tsv`).
     CovariateImbalance {
         /// The column.
@@ -82,6 +89,14 @@ impl fmt::Display for Warning {
                 f,
                 "the consensus found one community: no graph of the sweep showed subgroups that held together; \
                  the cohort may be homogeneous (no evidence of subgroups at these settings), or try a sparser --densities range, a kNN sweep (--graph knn) or --method leiden"
+            ),
+            Warning::MissingCovariate { columns, participants } => write!(
+                f,
+                "{} participant(s) have no value (n/a) in a covariate column ({}) and are left out of the comparison models \
+                 (they still take part in the communities): {}",
+                participants.len(),
+                columns.join(", "),
+                list_ids(participants)
             ),
             Warning::CovariateImbalance { column, description } => write!(
                 f,

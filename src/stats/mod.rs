@@ -15,6 +15,7 @@ pub mod balance;
 pub mod contingency;
 pub mod fdr;
 pub mod glm;
+pub mod model;
 pub mod oneway;
 pub mod welch;
 
