@@ -597,7 +597,98 @@ fn compare_and_write(
             peak_t,
         });
     }
+    write_interaction(
+        config,
+        features,
+        covariates.as_deref().unwrap_or(&[]),
+        groups,
+        communities,
+        maps_dir,
+        warnings,
+    )?;
     Ok(summaries)
+}
+
+/// The diagnosis x community interaction F, p and q maps (`stats::model::interaction_design`),
+/// or a warning saying why they are not written.
+fn write_interaction(
+    config: &RunConfig,
+    features: &Features,
+    covariates: &[stats::model::CovariateColumn],
+    groups: &Groups,
+    communities: &CommunityResult,
+    maps_dir: &Path,
+    warnings: &mut Vec<Warning>,
+) -> Result<(), Error> {
+    let (level_a, level_b) = &config.contrast;
+    let membership = &communities.partition.membership;
+    let everyone: Vec<usize> = (0..membership.len()).collect();
+    let (rows_a, rows_b) = (groups.rows_of(level_a, &everyone), groups.rows_of(level_b, &everyone));
+    let skip = |reason: String| Warning::ContrastSkipped {
+        scope: "diagnosis x community interaction".into(),
+        reason,
+    };
+    let Some(built) =
+        stats::model::interaction_design(&rows_a, &rows_b, membership, covariates, stats::MIN_GROUP_SIZE)
+    else {
+        warnings.push(skip(format!(
+            "fewer than 2 communities with at least {} participants of each level",
+            stats::MIN_GROUP_SIZE
+        )));
+        return Ok(());
+    };
+    let contrasts: Vec<Vec<f64>> = built
+        .interaction_columns
+        .iter()
+        .map(|&column| (0..built.design.column_count()).map(|j| f64::from(u8::from(j == column))).collect())
+        .collect();
+    let test = match stats::fit_linear_model(&features.matrix, &built.rows, &built.design)
+        .and_then(|model| stats::contrast_f(&model, &contrasts))
+    {
+        Ok(test) => test,
+        Err(error) => {
+            warnings.push(skip(error.to_string()));
+            return Ok(());
+        }
+    };
+    let count_a = built.rows.iter().filter(|row| rows_a.contains(row)).count();
+    let dof = [test.dof_numerator, test.dof_denominator];
+    let sidecar = with(
+        &maps::contrast_fields(level_a, count_a, level_b, built.rows.len() - count_a),
+        json!({
+            "Community": "all",
+            "Communities": built.communities,
+            "GroupColumn": config.group_column,
+            "Test": "F test of the group x community terms: full linear model against the model without them",
+            "Model": built.design.columns,
+            "DegreesOfFreedom": dof,
+        }),
+    );
+    let p_map: Vec<f32> = test.p.iter().map(|&p| p as f32).collect();
+    let q_map: Vec<f32> = test.q.iter().map(|&q| q as f32).collect();
+    let outputs: [(Statistic, &[f32], &str); 3] = [
+        (Statistic::F, &test.f, "F of the diagnosis x community interaction"),
+        (Statistic::P, &p_map, "Uncorrected p of the interaction F"),
+        (Statistic::Q, &q_map, "Benjamini-Hochberg q of the interaction p across all features of this map"),
+    ];
+    for (statistic, values, description) in outputs {
+        let name = MapName::builder()
+            .community("all")
+            .contrast(level_a, level_b)
+            .interaction()
+            .build_for(statistic)?;
+        let extra = json!({"Description": format!("{description}: does {level_a} - {level_b} differ across communities?")});
+        maps::write_map_with_dof(
+            maps_dir,
+            &features.space,
+            &name,
+            statistic,
+            values,
+            &with(&sidecar, extra),
+            &dof,
+        )?;
+    }
+    Ok(())
 }
 
 /// The `--covariates` columns of the comparison model (None without the flag), with a warning

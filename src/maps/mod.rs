@@ -12,7 +12,9 @@ pub mod naming;
 pub mod write;
 
 pub use naming::{contrast_label, sanitise_label, MapName, MapNameBuilder};
-pub use write::{contrast_fields, groups_field, write_bytes_atomically, write_map, NIFTI_GZIP_LEVEL};
+pub use write::{
+    contrast_fields, groups_field, write_bytes_atomically, write_map, write_map_with_dof, NIFTI_GZIP_LEVEL,
+};
 
 use std::path::PathBuf;
 
@@ -73,6 +75,8 @@ pub mod intent {
     pub const NONE: i16 = 0;
     /// `NIFTI_INTENT_TTEST`: Student's t; `intent_p1` = degrees of freedom.
     pub const TTEST: i16 = 3;
+    /// `NIFTI_INTENT_FTEST`: Fisher's F; `intent_p1` = numerator, `intent_p2` = denominator dof.
+    pub const FTEST: i16 = 4;
     /// `NIFTI_INTENT_PVAL`: a p value.
     pub const PVAL: i16 = 22;
     /// `NIFTI_INTENT_ESTIMATE`: an estimate of some parameter, named in `intent_name`.
@@ -96,11 +100,13 @@ pub enum Statistic {
     Q,
     /// Hedges g (bias-corrected standardised difference).
     HedgesG,
+    /// F statistic of a set of contrasts (the diagnosis x community interaction).
+    F,
 }
 
 impl Statistic {
     /// Every statistic, in the order maps are listed.
-    pub const ALL: [Statistic; 7] = [
+    pub const ALL: [Statistic; 8] = [
         Statistic::Mean,
         Statistic::Difference,
         Statistic::T,
@@ -108,6 +114,7 @@ impl Statistic {
         Statistic::P,
         Statistic::Q,
         Statistic::HedgesG,
+        Statistic::F,
     ];
 
     /// The file-name suffix.
@@ -120,6 +127,7 @@ impl Statistic {
             Statistic::P => "p",
             Statistic::Q => "q",
             Statistic::HedgesG => "g",
+            Statistic::F => "F",
         }
     }
 
@@ -135,6 +143,8 @@ impl Statistic {
         match self {
             Statistic::T if uniform_dof => intent::TTEST,
             Statistic::T => intent::NONE,
+            Statistic::F if uniform_dof => intent::FTEST,
+            Statistic::F => intent::NONE,
             Statistic::Mean | Statistic::Difference | Statistic::Dof | Statistic::HedgesG => intent::ESTIMATE,
             Statistic::P | Statistic::Q => intent::PVAL,
         }
@@ -150,6 +160,7 @@ impl Statistic {
             Statistic::P => "p two-sided",
             Statistic::Q => "BH q",
             Statistic::HedgesG => "Hedges g",
+            Statistic::F => "F",
         }
     }
 
@@ -162,6 +173,7 @@ impl Statistic {
             Statistic::Dof => "Welch-Satterthwaite degrees of freedom of the Welch t (Satterthwaite 1946; Welch 1947).",
             Statistic::P => "Two-sided p value of the Welch t from Student's t distribution with the Welch-Satterthwaite degrees of freedom; uncorrected.",
             Statistic::Q => "Benjamini-Hochberg adjusted p value (q) of the two-sided Welch p, across all features of this map (Benjamini & Hochberg 1995).",
+            Statistic::F => "F statistic of a set of contrasts of a linear model (numerator and denominator degrees of freedom in DegreesOfFreedom).",
             Statistic::HedgesG => "Hedges g: Cohen's d on the pooled standard deviation times the exact small-sample correction J(m) = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), m = n1 + n2 - 2 (Hedges 1981).",
         }
     }
@@ -182,7 +194,7 @@ impl Statistic {
         match self {
             Statistic::Mean | Statistic::Difference => "Fisher z (atanh of Pearson r)",
             Statistic::Dof => "degrees of freedom",
-            Statistic::T | Statistic::P | Statistic::Q | Statistic::HedgesG => "unitless",
+            Statistic::T | Statistic::P | Statistic::Q | Statistic::HedgesG | Statistic::F => "unitless",
         }
     }
 

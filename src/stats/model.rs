@@ -85,6 +85,87 @@ pub fn group_design(
     (Design { columns: names, values }, rows, 1)
 }
 
+/// The design of the diagnosis x community interaction, and which columns form it.
+#[derive(Debug, Clone)]
+pub struct InteractionDesign {
+    /// `intercept, group, covariates..., community[j]..., group:community[j]...`.
+    pub design: Design,
+    /// Cohort rows of the model, in design-row order.
+    pub rows: Vec<usize>,
+    /// Design columns of the interaction terms (the F test's contrasts).
+    pub interaction_columns: Vec<usize>,
+    /// Communities in the model (the first is the reference level).
+    pub communities: Vec<usize>,
+}
+
+/// The full model of the diagnosis x community interaction over the communities that hold at
+/// least `min_per_level` participants of each level (with every covariate value):
+///
+/// ```text
+/// y = b0 + b1 group + covariates + sum_j c_j community_j + sum_j d_j group community_j + e
+/// ```
+///
+/// with treatment coding against the first community. The F test of d_j = 0 for every j (the
+/// A - B difference is the same in every community) is the comparison with the model without
+/// the products (checked against statsmodels' anova_lm in tests/reference_glm.rs).
+///
+/// # Returns
+/// `None` when fewer than two communities qualify.
+pub fn interaction_design(
+    rows_a: &[usize],
+    rows_b: &[usize],
+    membership: &[usize],
+    columns: &[CovariateColumn],
+    min_per_level: usize,
+) -> Option<InteractionDesign> {
+    let complete = |row: &usize| columns.iter().all(|column| !column.is_missing(*row));
+    let mut communities: Vec<usize> = membership.iter().copied().filter(|&c| c > 0).collect();
+    communities.sort_unstable();
+    communities.dedup();
+    communities.retain(|&community| {
+        let count = |rows: &[usize]| {
+            rows.iter().filter(|&&row| membership[row] == community && complete(&row)).count()
+        };
+        count(rows_a) >= min_per_level && count(rows_b) >= min_per_level
+    });
+    if communities.len() < 2 {
+        return None;
+    }
+    let in_model = |row: &&usize| communities.contains(&membership[**row]);
+    let kept_a: Vec<usize> = rows_a.iter().filter(in_model).copied().collect();
+    let kept_b: Vec<usize> = rows_b.iter().filter(in_model).copied().collect();
+    let (base, rows, group) = group_design(&kept_a, &kept_b, columns);
+    let base_width = base.column_count();
+    let mut names = base.columns.clone();
+    let mut extra: Vec<Vec<f64>> = Vec::new();
+    for &community in &communities[1..] {
+        names.push(format!("community[{community}]"));
+        extra.push(rows.iter().map(|&row| f64::from(u8::from(membership[row] == community))).collect());
+    }
+    let mut interaction_columns = Vec::new();
+    for (offset, &community) in communities[1..].iter().enumerate() {
+        names.push(format!("group:community[{community}]"));
+        interaction_columns.push(names.len() - 1);
+        extra.push(
+            rows.iter()
+                .enumerate()
+                .map(|(index, _)| base.values[index * base_width + group] * extra[offset][index])
+                .collect(),
+        );
+    }
+    let mut values = Vec::with_capacity(rows.len() * names.len());
+    for index in 0..rows.len() {
+        values.extend_from_slice(&base.values[index * base_width..(index + 1) * base_width]);
+        values.extend(extra.iter().map(|column| column[index]));
+    }
+    Some(InteractionDesign {
+        design: Design { columns: names, values },
+        rows,
+        interaction_columns,
+        communities,
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -101,5 +182,21 @@ mod tests {
         assert_eq!(design.columns, ["intercept", "group", "age", "site[north]", "site[west]"]);
         // Row of participant 3: intercept 1, group B = 0, age 44.5, site west.
         assert_eq!(&design.values[2 * 5..3 * 5], &[1.0, 0.0, 44.5, 0.0, 1.0]);
+    }
+
+    #[test]
+    fn interaction_design_keeps_communities_with_both_levels() {
+        // Communities 1 and 2 have two of each level; community 3 only B: left out.
+        let membership = [1, 1, 1, 1, 2, 2, 2, 2, 3, 3, 0];
+        let rows_a = [0, 1, 4, 5];
+        let rows_b = [2, 3, 6, 7, 8, 9, 10];
+        let built = interaction_design(&rows_a, &rows_b, &membership, &[], 2).unwrap();
+        assert_eq!(built.communities, vec![1, 2]);
+        assert_eq!(built.rows, vec![0, 1, 4, 5, 2, 3, 6, 7]);
+        assert_eq!(built.design.columns, ["intercept", "group", "community[2]", "group:community[2]"]);
+        assert_eq!(built.interaction_columns, vec![3]);
+        // Participant 4 (A, community 2): 1, 1, 1, 1.
+        assert_eq!(&built.design.values[2 * 4..3 * 4], &[1.0, 1.0, 1.0, 1.0]);
+        assert!(interaction_design(&rows_a, &rows_b, &membership, &[], 3).is_none());
     }
 }
