@@ -17,6 +17,7 @@ pub mod fdr;
 pub mod glm;
 pub mod model;
 pub mod oneway;
+pub mod permutation;
 pub mod welch;
 
 pub use contingency::{
