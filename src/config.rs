@@ -45,6 +45,11 @@ pub const DEFAULT_CONSENSUS_THRESHOLD: f64 = 0.5;
 /// typical values (strata's choice) at a cost of ten all-pairs path searches.
 pub const DEFAULT_RANDOM_GRAPHS: usize = 10;
 
+/// Default number of permutations for the family-wise p maps: 0 (off). Permutations multiply the
+/// comparison's cost by their number, so they are asked for (`--permutations 5000` is common
+/// practice for a family-wise p near 0.05; Nichols & Holmes 2002 use thousands).
+pub const DEFAULT_PERMUTATIONS: usize = 0;
+
 /// Default run seed.
 pub const DEFAULT_SEED: u64 = 20_261_202;
 
@@ -116,6 +121,8 @@ pub struct RunConfig {
     /// communities (`covariates.tsv`). `None` when the flag is absent: Welch comparisons, and
     /// every column other than `participant_id` and the group column tested for balance.
     pub covariates: Option<Vec<String>>,
+    /// Permutations for the per-feature and family-wise permutation p maps (0 = none).
+    pub permutations: usize,
     /// Run seed.
     pub seed: u64,
     /// Worker threads (0 = one per core).
@@ -316,6 +323,7 @@ impl RunConfig {
             random_graphs: DEFAULT_RANDOM_GRAPHS,
             alpha: DEFAULT_ALPHA,
             covariates: None,
+            permutations: DEFAULT_PERMUTATIONS,
             seed: DEFAULT_SEED,
             threads: 0,
         }
@@ -345,6 +353,19 @@ impl RunConfig {
             return Err(invalid(
                 "--covariates",
                 format!("'{column}' is the --group-column; the group enters every comparison already, list other columns"),
+            ));
+        }
+        if self.permutations > 0 && 1.0 / (self.permutations as f64 + 1.0) > self.alpha {
+            return Err(invalid(
+                "--permutations",
+                format!(
+                    "{} permutations give a smallest attainable p of 1/{} = {:.3}, above --alpha {}; use at least {} permutations",
+                    self.permutations,
+                    self.permutations + 1,
+                    1.0 / (self.permutations as f64 + 1.0),
+                    self.alpha,
+                    (1.0 / self.alpha).ceil() as usize
+                ),
             ));
         }
         if !(self.alpha > 0.0 && self.alpha < 1.0) {

@@ -576,6 +576,8 @@ fn compare_and_write(
                 t_dof,
             )?;
         }
+        let permutation_input = (&rows_a[..], &rows_b[..], covariates.as_deref().unwrap_or(&[]));
+        write_permutation_maps(config, features, permutation_input, &scope, maps_dir, &contrast_sidecar)?;
         let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
         let (peak_index, peak_t) = comparison
             .t
@@ -691,6 +693,48 @@ fn write_interaction(
     Ok(())
 }
 
+/// Permutation p and family-wise p maps of one scope's contrast (`--permutations`): Freedman-Lane
+/// on the linear model group + covariates (`stats::permutation`), seeded per scope.
+fn write_permutation_maps(
+    config: &RunConfig,
+    features: &Features,
+    (rows_a, rows_b, columns): (&[usize], &[usize], &[stats::model::CovariateColumn]),
+    scope: &str,
+    maps_dir: &Path,
+    sidecar: &serde_json::Value,
+) -> Result<(), Error> {
+    if config.permutations == 0 {
+        return Ok(());
+    }
+    let (level_a, level_b) = &config.contrast;
+    let (design, rows, group) = stats::model::group_design(rows_a, rows_b, columns);
+    let scope_seed =
+        crate::seed::derive(config.seed, "permutation-scope", &[scope.parse::<u64>().unwrap_or(0)]);
+    let permutations = stats::permutation::random_permutations(rows.len(), config.permutations, scope_seed);
+    let Ok(test) = stats::permutation::freedman_lane(&features.matrix, &rows, &design, group, &permutations)
+    else {
+        return Ok(()); // the model cannot be fitted in this scope: the contrast maps say so already
+    };
+    let extra = json!({
+        "Test": "two-sided t of the group coefficient of the linear model, permutation inference",
+        "Permutations": test.permutations,
+        "SmallestAttainableP": test.smallest_p,
+        "PermutationMethod": "Freedman-Lane on the linear model below (plain permutation of the data when it holds only the intercept and group)",
+        "Model": design.columns,
+    });
+    let pairs = [(Statistic::PermutationP, &test.p_uncorrected), (Statistic::FamilyWiseP, &test.p_fwe)];
+    for (statistic, values) in pairs {
+        let values: Vec<f32> = values.iter().map(|&p| p as f32).collect();
+        let name = MapName::builder().community(scope).contrast(level_a, level_b).build_for(statistic)?;
+        let described = with(
+            &with(sidecar, extra.clone()),
+            json!({"Description": format!("{} ({level_a} - {level_b})", statistic.description())}),
+        );
+        maps::write_map(maps_dir, &features.space, &name, statistic, &values, &described, None)?;
+    }
+    Ok(())
+}
+
 /// The `--covariates` columns of the comparison model (None without the flag), with a warning
 /// naming the participants left out for a missing value.
 fn covariate_columns(
@@ -797,6 +841,7 @@ fn compare_with_covariates(
             Some(test.dof),
         )?;
     }
+    write_permutation_maps(config, features, (rows_a, rows_b, columns), scope, maps_dir, &sidecar)?;
     let significant = test.q.iter().filter(|&&q| q < config.alpha).count();
     let (peak_index, peak_t) = test
         .t

@@ -124,3 +124,46 @@ fn covariates_turn_the_comparison_into_a_linear_model() {
     assert!(!maps.join("comm-all_contrast-insomniaVsControl_g.npy").exists());
     assert!(!maps.join("comm-all_contrast-insomniaVsControl_dof.npy").exists());
 }
+
+#[test]
+fn permutation_maps_are_written_and_identical_at_any_thread_count() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let mut maps = Vec::new();
+    for threads in ["1", "2"] {
+        let out = dir.path().join(format!("results-{threads}"));
+        let out = out.to_str().unwrap().to_string();
+        let output = strata(&small_cohort_args(&out, &["--permutations", "199", "--threads", threads]), root);
+        assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+        maps.push(Path::new(&out).join("maps"));
+    }
+    let stem = "comm-all_contrast-insomniaVsControl";
+    let read = |dir: &Path, suffix: &str| -> ndarray::Array2<f32> {
+        ndarray_npy::read_npy(dir.join(format!("{stem}_{suffix}.npy"))).unwrap()
+    };
+    for suffix in ["pperm", "pfwe"] {
+        assert_eq!(
+            read(&maps[0], suffix),
+            read(&maps[1], suffix),
+            "{suffix} differs between 1 and 2 threads"
+        );
+    }
+    let (uncorrected, family) = (read(&maps[0], "pperm"), read(&maps[0], "pfwe"));
+    for (fwe, p) in family.iter().zip(uncorrected.iter()) {
+        // p is a count over 200 permutations: never below 1/200, FWE never below uncorrected.
+        assert!(*p >= 1.0 / 200.0 - 1e-7 && *fwe >= *p, "p {p}, fwe {fwe}");
+    }
+    let sidecar: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(maps[0].join(format!("{stem}_pfwe.json"))).unwrap())
+            .unwrap();
+    assert_eq!(sidecar["Permutations"], 200);
+    assert_eq!(sidecar["Statistic"], "FWE p");
+
+    let output = strata(&small_cohort_args("never", &["--permutations", "10"]), root);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("10 permutations give a smallest attainable p of 1/11 = 0.091, above --alpha 0.05"),
+        "{stderr}"
+    );
+}

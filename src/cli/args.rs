@@ -206,6 +206,10 @@ pub struct RunArgs {
     /// every column other than participant_id and --group-column tested for balance.
     #[arg(long, value_name = "COLUMN,...", help_heading = "Comparison")]
     pub covariates: Option<String>,
+    /// Permutations for the permutation p and family-wise (max-statistic) p maps of every
+    /// contrast (Freedman-Lane with covariates); 0 writes none. Seeded by --seed.
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_PERMUTATIONS, help_heading = "Comparison")]
+    pub permutations: usize,
 
     /// How the sweep's participant graphs are cut from the similarity matrix: density
     /// (strongest fraction of all pairs), knn or mutual-knn (each participant's k most similar),
@@ -313,6 +317,7 @@ impl RunArgs {
                 .as_deref()
                 .map(|text| config::parse_columns("--covariates", text))
                 .transpose()?,
+            permutations: self.permutations,
             seed: self.seed,
             threads: self.threads,
         }

@@ -102,11 +102,15 @@ pub enum Statistic {
     HedgesG,
     /// F statistic of a set of contrasts (the diagnosis x community interaction).
     F,
+    /// Per-feature permutation p of the linear-model t.
+    PermutationP,
+    /// Family-wise (max-statistic) permutation p of the linear-model t.
+    FamilyWiseP,
 }
 
 impl Statistic {
     /// Every statistic, in the order maps are listed.
-    pub const ALL: [Statistic; 8] = [
+    pub const ALL: [Statistic; 10] = [
         Statistic::Mean,
         Statistic::Difference,
         Statistic::T,
@@ -115,6 +119,8 @@ impl Statistic {
         Statistic::Q,
         Statistic::HedgesG,
         Statistic::F,
+        Statistic::PermutationP,
+        Statistic::FamilyWiseP,
     ];
 
     /// The file-name suffix.
@@ -128,6 +134,8 @@ impl Statistic {
             Statistic::Q => "q",
             Statistic::HedgesG => "g",
             Statistic::F => "F",
+            Statistic::PermutationP => "pperm",
+            Statistic::FamilyWiseP => "pfwe",
         }
     }
 
@@ -146,7 +154,7 @@ impl Statistic {
             Statistic::F if uniform_dof => intent::FTEST,
             Statistic::F => intent::NONE,
             Statistic::Mean | Statistic::Difference | Statistic::Dof | Statistic::HedgesG => intent::ESTIMATE,
-            Statistic::P | Statistic::Q => intent::PVAL,
+            Statistic::P | Statistic::Q | Statistic::PermutationP | Statistic::FamilyWiseP => intent::PVAL,
         }
     }
 
@@ -161,6 +169,8 @@ impl Statistic {
             Statistic::Q => "BH q",
             Statistic::HedgesG => "Hedges g",
             Statistic::F => "F",
+            Statistic::PermutationP => "perm p",
+            Statistic::FamilyWiseP => "FWE p",
         }
     }
 
@@ -173,6 +183,8 @@ impl Statistic {
             Statistic::Dof => "Welch-Satterthwaite degrees of freedom of the Welch t (Satterthwaite 1946; Welch 1947).",
             Statistic::P => "Two-sided p value of the Welch t from Student's t distribution with the Welch-Satterthwaite degrees of freedom; uncorrected.",
             Statistic::Q => "Benjamini-Hochberg adjusted p value (q) of the two-sided Welch p, across all features of this map (Benjamini & Hochberg 1995).",
+            Statistic::PermutationP => "Permutation p of the two-sided linear-model t of the contrast: the share of permutations (the observed order included) whose |t| reaches the observed |t| (Freedman & Lane 1983).",
+            Statistic::FamilyWiseP => "Family-wise error p of the two-sided linear-model t: the share of permutations whose largest |t| over all features of the map reaches the observed |t| (Nichols & Holmes 2002; Freedman & Lane 1983).",
             Statistic::F => "F statistic of a set of contrasts of a linear model (numerator and denominator degrees of freedom in DegreesOfFreedom).",
             Statistic::HedgesG => "Hedges g: Cohen's d on the pooled standard deviation times the exact small-sample correction J(m) = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), m = n1 + n2 - 2 (Hedges 1981).",
         }
@@ -182,6 +194,9 @@ impl Statistic {
     pub fn correction(self) -> &'static str {
         match self {
             Statistic::Q => "Benjamini-Hochberg",
+            Statistic::FamilyWiseP => {
+                "family-wise error, max statistic over the map's features (permutation)"
+            }
             _ => "none",
         }
     }
@@ -194,7 +209,13 @@ impl Statistic {
         match self {
             Statistic::Mean | Statistic::Difference => "Fisher z (atanh of Pearson r)",
             Statistic::Dof => "degrees of freedom",
-            Statistic::T | Statistic::P | Statistic::Q | Statistic::HedgesG | Statistic::F => "unitless",
+            Statistic::T
+            | Statistic::P
+            | Statistic::Q
+            | Statistic::HedgesG
+            | Statistic::F
+            | Statistic::PermutationP
+            | Statistic::FamilyWiseP => "unitless",
         }
     }
 
@@ -208,7 +229,7 @@ impl Statistic {
     /// everything else (no effect). Chosen over NaN because many viewers and tools mishandle NaN.
     pub fn fill_value(self) -> f32 {
         match self {
-            Statistic::P | Statistic::Q => 1.0,
+            Statistic::P | Statistic::Q | Statistic::PermutationP | Statistic::FamilyWiseP => 1.0,
             _ => 0.0,
         }
     }
