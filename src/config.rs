@@ -121,6 +121,9 @@ pub struct RunConfig {
     /// communities (`covariates.tsv`). `None` when the flag is absent: Welch comparisons, and
     /// every column other than `participant_id` and the group column tested for balance.
     pub covariates: Option<Vec<String>>,
+    /// A participants-table column tested for association with community membership
+    /// (`outcome.tsv`).
+    pub outcome: Option<String>,
     /// Permutations for the per-feature and family-wise permutation p maps (0 = none).
     pub permutations: usize,
     /// Run seed.
@@ -324,6 +327,7 @@ impl RunConfig {
             alpha: DEFAULT_ALPHA,
             covariates: None,
             permutations: DEFAULT_PERMUTATIONS,
+            outcome: None,
             seed: DEFAULT_SEED,
             threads: 0,
         }
@@ -353,6 +357,15 @@ impl RunConfig {
             return Err(invalid(
                 "--covariates",
                 format!("'{column}' is the --group-column; the group enters every comparison already, list other columns"),
+            ));
+        }
+        if self.outcome.as_deref() == Some(self.group_column.as_str()) {
+            return Err(invalid(
+                "--outcome",
+                format!(
+                    "'{}' is the --group-column; composition.tsv already tests it against the communities",
+                    self.group_column
+                ),
             ));
         }
         if self.permutations > 0 && 1.0 / (self.permutations as f64 + 1.0) > self.alpha {

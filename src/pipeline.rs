@@ -157,11 +157,16 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             }
         };
         let groups = group_labels(config, &cohort)?;
-        if let Some(missing) =
-            config.covariates.iter().flatten().find(|column| cohort.table.column(column).is_none())
+        if let Some(missing) = config
+            .covariates
+            .iter()
+            .flatten()
+            .chain(&config.outcome)
+            .find(|column| cohort.table.column(column).is_none())
         {
+            let flag = if config.outcome.as_ref() == Some(missing) { "--outcome" } else { "--covariates" };
             return Err(ConfigError::Invalid {
-                flag: "--covariates".into(),
+                flag: flag.into(),
                 message: format!(
                     "{}: no column '{missing}'; the table has: {}",
                     cohort.table.path().display(),
@@ -391,6 +396,14 @@ fn write_balance(
         }
     }
     balance_table(&rows).write(&output.path().join("covariates.tsv"))?;
+    if let Some(column) = &config.outcome {
+        let values = table.column(column).unwrap_or_default();
+        let draws =
+            if config.permutations > 0 { config.permutations } else { stats::balance::MONTE_CARLO_DRAWS };
+        let (tests, _) =
+            stats::balance::outcome_tests(column, &values, membership, config.alpha, config.seed, draws);
+        balance_table(&tests).write(&output.path().join("outcome.tsv"))?;
+    }
     Ok(())
 }
 

@@ -167,3 +167,30 @@ fn permutation_maps_are_written_and_identical_at_any_thread_count() {
         "{stderr}"
     );
 }
+
+#[test]
+fn outcome_table_with_effect_size_and_permutation_p() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("results");
+    let out = out.to_str().unwrap();
+    let output =
+        strata(&small_cohort_args(out, &["--outcome", "followup_isi", "--permutations", "999"]), root);
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    let outcome = rows(&Path::new(out).join("outcome.tsv"));
+    assert_eq!(outcome[0].join("\t"), HEADER);
+    assert_eq!(outcome.len(), 3);
+    for row in &outcome[1..] {
+        assert_eq!((row[0].as_str(), row[11].as_str()), ("followup_isi", "permutation"));
+        // With 999 shuffles p is a count over 1,000: at least 0.001; it estimates the
+        // asymptotic p of a balanced design within Monte Carlo error (0.05 here, common practice
+        // for 1,000 draws: 3.5 standard errors at p = 0.2).
+        let (p, p_exact): (f64, f64) = (row[9].parse().unwrap(), row[10].parse().unwrap());
+        assert!(p_exact >= 0.001 && (p - p_exact).abs() < 0.05, "p {p}, permutation p {p_exact}");
+    }
+    let missing = dir.path().join("missing");
+    let output = strata(&small_cohort_args(missing.to_str().unwrap(), &["--outcome", "relapse"]), root);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("--outcome") && stderr.contains("no column 'relapse'"), "{stderr}");
+}

@@ -210,6 +210,11 @@ pub struct RunArgs {
     /// contrast (Freedman-Lane with covariates); 0 writes none. Seeded by --seed.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_PERMUTATIONS, help_heading = "Comparison")]
     pub permutations: usize,
+    /// Participants-table column (for example a follow-up score) tested for association with
+    /// community membership in outcome.tsv, with effect size and a permutation p (--permutations
+    /// shuffles, or 9,999 when 0).
+    #[arg(long, value_name = "COLUMN", help_heading = "Comparison")]
+    pub outcome: Option<String>,
 
     /// How the sweep's participant graphs are cut from the similarity matrix: density
     /// (strongest fraction of all pairs), knn or mutual-knn (each participant's k most similar),
@@ -318,6 +323,7 @@ impl RunArgs {
                 .map(|text| config::parse_columns("--covariates", text))
                 .transpose()?,
             permutations: self.permutations,
+            outcome: self.outcome,
             seed: self.seed,
             threads: self.threads,
         }

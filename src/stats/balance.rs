@@ -13,6 +13,7 @@ use super::contingency::{
     chi_square_independence, fisher_exact, monte_carlo_chi_square, SMALL_EXPECTED_COUNT,
 };
 use super::oneway::{kruskal_wallis, one_way_anova};
+use rand::seq::SliceRandom;
 
 /// Draws of the Monte Carlo p reported when an expected count is below
 /// [`SMALL_EXPECTED_COUNT`]: with 9,999 draws the smallest attainable p is 1e-4 and the Monte
@@ -519,6 +520,86 @@ fn categorical_tests(
     (vec![row], imbalance)
 }
 
+/// The tests of `outcome.tsv`: whether community membership is associated with an outcome
+/// column, as [`covariate_tests`], with a permutation p for every row.
+///
+/// Numeric outcome: ANOVA and Kruskal-Wallis rows, each with `p_exact` the share of `draws`
+/// seeded shuffles of the community labels (over the participants with a value) whose statistic
+/// reaches the observed one, the observed labelling counted: (b + 1) / (draws + 1).
+/// Categorical outcome: the chi-square row with the Monte Carlo p of [`monte_carlo_chi_square`]
+/// (a shuffle with both margins fixed), whatever the expected counts.
+///
+/// # Complexity
+/// O(draws N log N).
+///
+/// # References
+/// Phipson & Smyth 2010, Stat Appl Genet Mol Biol 9:39 ((b + 1) / (B + 1)).
+pub fn outcome_tests(
+    column: &str,
+    values: &[&str],
+    membership: &[usize],
+    alpha: f64,
+    seed: u64,
+    draws: usize,
+) -> (Vec<BalanceTest>, Option<Imbalance>) {
+    let (mut rows, imbalance) = covariate_tests(column, values, membership, alpha, seed, 2_000_000);
+    match numeric_values(values) {
+        Some(numbers) => {
+            let pairs: Vec<(usize, f64)> = numbers
+                .iter()
+                .zip(membership)
+                .filter(|(_, &community)| community > 0)
+                .filter_map(|(value, &community)| value.map(|v| (community, v)))
+                .collect();
+            let communities = communities_of(&pairs.iter().map(|p| p.0).collect::<Vec<_>>());
+            let samples = |labels: &[usize]| -> Vec<Vec<f64>> {
+                communities
+                    .iter()
+                    .map(|&c| pairs.iter().zip(labels).filter(|(_, &l)| l == c).map(|(p, _)| p.1).collect())
+                    .collect()
+            };
+            let mut labels: Vec<usize> = pairs.iter().map(|p| p.0).collect();
+            let mut rng = crate::seed::rng(seed, "outcome", &[0]);
+            let mut reached = [0usize; 2];
+            let observed = [rows[0].statistic, rows.get(1).map_or(f64::NAN, |r| r.statistic)];
+            for _ in 0..draws {
+                labels.shuffle(&mut rng);
+                let shuffled = samples(&labels);
+                let statistics = [
+                    one_way_anova(&shuffled).map_or(f64::NAN, |r| r.f),
+                    kruskal_wallis(&shuffled).map_or(f64::NAN, |r| r.h),
+                ];
+                for index in 0..2 {
+                    if statistics[index] >= observed[index] * (1.0 - super::contingency::RELATIVE_TIE) {
+                        reached[index] += 1;
+                    }
+                }
+            }
+            for (index, row) in rows.iter_mut().enumerate().take(2) {
+                if row.statistic.is_finite() {
+                    row.p_exact = (reached[index] + 1) as f64 / (draws + 1) as f64;
+                    row.p_exact_method = "permutation";
+                }
+            }
+        }
+        None => {
+            let labels: Vec<Option<&str>> = values
+                .iter()
+                .map(|value| if is_missing(value) { None } else { Some(value.trim()) })
+                .collect();
+            let (table, ..) = cross_table(membership, &labels);
+            let mut rng = crate::seed::rng(seed, "outcome", &[1]);
+            if let (Some(row), Ok(p)) = (rows.first_mut(), monte_carlo_chi_square(&table, draws, &mut rng)) {
+                if row.test == "chi_square" {
+                    row.p_exact = p;
+                    row.p_exact_method = "monte_carlo";
+                }
+            }
+        }
+    }
+    (rows, imbalance)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -569,6 +650,12 @@ mod tests {
             "{}",
             imbalance.description
         );
+        // The outcome version adds a permutation p: with a clear separation (all five values of
+        // community 1 below all six of community 2) the Kruskal-Wallis permutation p is near
+        // the exact 2 / C(11, 5) = 2 / 462 (hand count of the two extreme splits).
+        let (rows, _) = outcome_tests("mean_fd", &values, &membership, 0.05, 1, 4999);
+        assert_eq!(rows[1].p_exact_method, "permutation");
+        assert!(rows[1].p_exact < 0.01 && rows[1].p_exact >= 1.0 / 5000.0, "{}", rows[1].p_exact);
         // Site codes 1/2 are a category, not a measurement: one chi-square row.
         let sites = ["1", "2", "1", "2", "1", "2", "1", "2", "1", "2", "1", "2", "1"];
         let (rows, _) = covariate_tests("site", &sites, &membership, 0.05, 1, 2);
