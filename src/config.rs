@@ -121,6 +121,8 @@ pub struct RunConfig {
     /// communities (`covariates.tsv`). `None` when the flag is absent: Welch comparisons, and
     /// every column other than `participant_id` and the group column tested for balance.
     pub covariates: Option<Vec<String>>,
+    /// Participants-table columns regressed out of the features before the similarity step.
+    pub nuisance: Vec<String>,
     /// A participants-table column tested for association with community membership
     /// (`outcome.tsv`).
     pub outcome: Option<String>,
@@ -328,6 +330,7 @@ impl RunConfig {
             covariates: None,
             permutations: DEFAULT_PERMUTATIONS,
             outcome: None,
+            nuisance: Vec::new(),
             seed: DEFAULT_SEED,
             threads: 0,
         }

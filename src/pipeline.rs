@@ -162,9 +162,16 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             .iter()
             .flatten()
             .chain(&config.outcome)
+            .chain(&config.nuisance)
             .find(|column| cohort.table.column(column).is_none())
         {
-            let flag = if config.outcome.as_ref() == Some(missing) { "--outcome" } else { "--covariates" };
+            let flag = if config.outcome.as_ref() == Some(missing) {
+                "--outcome"
+            } else if config.nuisance.contains(missing) {
+                "--nuisance"
+            } else {
+                "--covariates"
+            };
             return Err(ConfigError::Invalid {
                 flag: flag.into(),
                 message: format!(
@@ -211,7 +218,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 "{} features per participant; computing participant similarity",
                 features.matrix.feature_count()
             ));
-            let similarity = timings.time(log, "similarity", || similarity::pearson(&features.matrix));
+            let adjusted = timings.time(log, "nuisance", || remove_nuisance(config, &cohort, &features))?;
+            let similarity = timings.time(log, "similarity", || {
+                similarity::pearson(adjusted.as_ref().unwrap_or(&features.matrix))
+            });
             (Some(features), similarity)
         }
     };
@@ -746,6 +756,39 @@ fn write_permutation_maps(
         maps::write_map(maps_dir, &features.space, &name, statistic, &values, &described, None)?;
     }
     Ok(())
+}
+
+/// The features with the `--nuisance` columns regressed out (`features::nuisance`), for the
+/// similarity step only; `None` without the flag.
+fn remove_nuisance(
+    config: &RunConfig,
+    cohort: &Cohort,
+    features: &Features,
+) -> Result<Option<features::FeatureMatrix>, Error> {
+    if config.nuisance.is_empty() {
+        return Ok(None);
+    }
+    let invalid = |message: String| ConfigError::Invalid { flag: "--nuisance".into(), message };
+    let columns: Vec<_> = config
+        .nuisance
+        .iter()
+        .filter_map(|name| {
+            cohort.table.column(name).map(|cells| stats::model::CovariateColumn::new(name, &cells))
+        })
+        .collect();
+    let design = stats::model::nuisance_design(&columns, cohort.participant_ids.len()).map_err(|rows| {
+        let ids: Vec<&str> = rows.iter().map(|&row| cohort.participant_ids[row].as_str()).collect();
+        invalid(format!(
+            "{}: participant(s) {} have no value (n/a) in {}; nuisance regression needs a value for everyone: fill them or remove these participants",
+            cohort.table.path().display(),
+            ids.join(", "),
+            config.nuisance.join(", ")
+        ))
+    })?;
+    let adjusted =
+        features::nuisance::regress_out(&features.matrix, &design.values, design.column_count())
+            .map_err(|message| invalid(format!("{} (columns {})", message, design.columns.join(", "))))?;
+    Ok(Some(adjusted))
 }
 
 /// The `--covariates` columns of the comparison model (None without the flag), with a warning

@@ -194,3 +194,37 @@ fn outcome_table_with_effect_size_and_permutation_p() {
     assert_eq!(output.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("--outcome") && stderr.contains("no column 'relapse'"), "{stderr}");
 }
+
+#[test]
+fn nuisance_columns_change_the_similarity_but_not_the_maps() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let plain = dir.path().join("plain");
+    let adjusted = dir.path().join("adjusted");
+    for (out, extra) in [(&plain, vec![]), (&adjusted, vec!["--nuisance", "fd_mean,sex"])] {
+        let output = strata(&small_cohort_args(out.to_str().unwrap(), &extra), root);
+        assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    }
+    let similarity =
+        |dir: &Path| -> ndarray::Array2<f32> { ndarray_npy::read_npy(dir.join("similarity.npy")).unwrap() };
+    let (before, after) = (similarity(&plain), similarity(&adjusted));
+    let largest_change = before.iter().zip(after.iter()).map(|(a, b)| (a - b).abs()).fold(0.0f32, f32::max);
+    assert!(largest_change > 1e-3, "the nuisance regression must change the similarity ({largest_change})");
+    // The maps come from the original features: the whole-cohort mean map is the same.
+    let mean = |dir: &Path| -> ndarray::Array2<f32> {
+        ndarray_npy::read_npy(dir.join("maps/comm-all_mean.npy")).unwrap()
+    };
+    for (a, b) in mean(&plain).iter().zip(mean(&adjusted).iter()) {
+        approx::assert_abs_diff_eq!(*a, *b, epsilon = 1e-6);
+    }
+    // followup_isi has n/a for sub-NSM011: refused with the participant named.
+    let refused = dir.path().join("refused");
+    let output = strata(&small_cohort_args(refused.to_str().unwrap(), &["--nuisance", "followup_isi"]), root);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(2), "{stderr}");
+    assert!(
+        stderr.contains("--nuisance")
+            && stderr.contains("participant(s) sub-NSM011 have no value (n/a) in followup_isi"),
+        "{stderr}"
+    );
+}

@@ -215,6 +215,11 @@ pub struct RunArgs {
     /// shuffles, or 9,999 when 0).
     #[arg(long, value_name = "COLUMN", help_heading = "Comparison")]
     pub outcome: Option<String>,
+    /// Participants-table columns (numeric or categorical) regressed out of every feature
+    /// before the participant similarity (the maps keep the original features; use
+    /// --covariates there). Every participant needs a value.
+    #[arg(long, value_name = "COLUMN,...", help_heading = "Features")]
+    pub nuisance: Option<String>,
 
     /// How the sweep's participant graphs are cut from the similarity matrix: density
     /// (strongest fraction of all pairs), knn or mutual-knn (each participant's k most similar),
@@ -324,6 +329,12 @@ impl RunArgs {
                 .transpose()?,
             permutations: self.permutations,
             outcome: self.outcome,
+            nuisance: self
+                .nuisance
+                .as_deref()
+                .map(|text| config::parse_columns("--nuisance", text))
+                .transpose()?
+                .unwrap_or_default(),
             seed: self.seed,
             threads: self.threads,
         }

@@ -8,6 +8,7 @@
 mod build;
 mod error;
 mod fisher;
+pub mod nuisance;
 
 pub use build::{build_features, FeatureOptions, FeatureSummary, Features, ValueScale};
 pub use error::FeatureError;

@@ -85,6 +85,32 @@ pub fn group_design(
     (Design { columns: names, values }, rows, 1)
 }
 
+/// The nuisance design `intercept, columns...` over every participant (cohort order), for the
+/// features stage's nuisance regression; `Err` names the participants without a value.
+pub fn nuisance_design(columns: &[CovariateColumn], participant_count: usize) -> Result<Design, Vec<usize>> {
+    let missing = rows_with_missing(columns, participant_count);
+    if !missing.is_empty() {
+        return Err(missing);
+    }
+    // group_design with every participant in "A" and an all-ones group column dropped.
+    let everyone: Vec<usize> = (0..participant_count).collect();
+    let (design, _, group) = group_design(&everyone, &[], columns);
+    let k = design.column_count();
+    let values = &design.values;
+    Ok(Design {
+        columns: design
+            .columns
+            .iter()
+            .enumerate()
+            .filter(|(j, _)| *j != group)
+            .map(|(_, c)| c.clone())
+            .collect(),
+        values: (0..participant_count)
+            .flat_map(|i| (0..k).filter(|&j| j != group).map(move |j| values[i * k + j]))
+            .collect(),
+    })
+}
+
 /// The design of the diagnosis x community interaction, and which columns form it.
 #[derive(Debug, Clone)]
 pub struct InteractionDesign {
