@@ -481,6 +481,7 @@ fn compare_and_write(
     let matrix = &features.matrix;
     let mut summaries = Vec::new();
     let covariates = covariate_columns(config, cohort, warnings);
+    let mut effects: Vec<ContrastMaps> = Vec::new();
     for (scope, rows) in scopes(communities) {
         let scope_words =
             if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
@@ -550,7 +551,7 @@ fn compare_and_write(
                 &scope,
                 maps_dir,
                 &base_sidecar,
-                warnings,
+                (warnings, &mut effects),
             )?;
             summaries.push(summary.unwrap_or_else(|reason| skipped(&scope, counts, reason)));
             continue;
@@ -601,6 +602,12 @@ fn compare_and_write(
         }
         let permutation_input = (&rows_a[..], &rows_b[..], covariates.as_deref().unwrap_or(&[]));
         write_permutation_maps(config, features, permutation_input, &scope, maps_dir, &contrast_sidecar)?;
+        effects.push((
+            scope.clone(),
+            comparison.difference.clone(),
+            comparison.t.clone(),
+            comparison.q.clone(),
+        ));
         let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
         let (peak_index, peak_t) = comparison
             .t
@@ -631,6 +638,7 @@ fn compare_and_write(
         maps_dir,
         warnings,
     )?;
+    write_contrast_summaries(config, features, &effects, maps_dir.parent().unwrap_or(maps_dir))?;
     Ok(summaries)
 }
 
@@ -791,6 +799,75 @@ fn remove_nuisance(
     Ok(Some(adjusted))
 }
 
+/// Scope, difference (or adjusted estimate), t and q of a written contrast.
+type ContrastMaps = (String, Vec<f32>, Vec<f32>, Vec<f64>);
+
+/// Features listed per scope in `top_edges.tsv`.
+const TOP_EDGES: usize = 20;
+
+/// contrast_correlations.tsv (every pair of written contrast maps); for region matrices also
+/// top_edges.tsv and, with an atlas `network` column, network_blocks.tsv (`stats::summaries`).
+fn write_contrast_summaries(
+    config: &RunConfig,
+    features: &Features,
+    effects: &[ContrastMaps],
+    dir: &Path,
+) -> Result<(), Error> {
+    let mut table = Table::new(["community_a", "community_b", "correlation", "features"]);
+    for (index, (scope_a, difference_a, ..)) in effects.iter().enumerate() {
+        for (scope_b, difference_b, ..) in &effects[index + 1..] {
+            let (r, n) = stats::summaries::map_correlation(difference_a, difference_b);
+            table.push(vec![scope_a.clone(), scope_b.clone(), format_number(r), n.to_string()]);
+        }
+    }
+    table.write(&dir.join("contrast_correlations.tsv"))?;
+    let FeatureSpace::Edges(edges) = &features.space else { return Ok(()) };
+    let mut top =
+        Table::new(["community", "rank", "region_i", "region_j", "name_i", "name_j", "difference", "t", "q"]);
+    for (scope, difference, t, q) in effects {
+        for (rank, index) in stats::summaries::top_features(t, TOP_EDGES).into_iter().enumerate() {
+            let (i, j) = edges.edge(index);
+            top.push(vec![
+                scope.clone(),
+                (rank + 1).to_string(),
+                (i + 1).to_string(),
+                (j + 1).to_string(),
+                edges.region_names[i].clone(),
+                edges.region_names[j].clone(),
+                format_number(f64::from(difference[index])),
+                format_number(f64::from(t[index])),
+                format_number(q[index]),
+            ]);
+        }
+    }
+    top.write(&dir.join("top_edges.tsv"))?;
+    let Some(atlas) = &config.atlas else { return Ok(()) };
+    let atlas_table = read::read_table(atlas)?;
+    let Some(networks) = atlas_table.column("network") else { return Ok(()) };
+    let networks: Vec<String> = networks.iter().map(|n| n.trim().to_string()).collect();
+    if networks.len() != edges.region_count {
+        return Ok(());
+    }
+    let mut blocks =
+        Table::new(["community", "network_a", "network_b", "edges", "mean_difference", "mean_t"]);
+    for (scope, difference, t, _) in effects {
+        let means = stats::summaries::network_blocks(edges, &networks, difference);
+        let t_means = stats::summaries::network_blocks(edges, &networks, t);
+        for (block, t_block) in means.iter().zip(&t_means) {
+            blocks.push(vec![
+                scope.clone(),
+                block.network_a.clone(),
+                block.network_b.clone(),
+                block.edges.to_string(),
+                format_number(block.mean),
+                format_number(t_block.mean),
+            ]);
+        }
+    }
+    blocks.write(&dir.join("network_blocks.tsv"))?;
+    Ok(())
+}
+
 /// The `--covariates` columns of the comparison model (None without the flag), with a warning
 /// naming the participants left out for a missing value.
 fn covariate_columns(
@@ -842,7 +919,7 @@ fn compare_with_covariates(
     scope: &str,
     maps_dir: &Path,
     base_sidecar: &serde_json::Value,
-    warnings: &mut Vec<Warning>,
+    (warnings, effects): (&mut Vec<Warning>, &mut Vec<ContrastMaps>),
 ) -> Result<Result<ComparisonSummary, String>, Error> {
     let (level_a, level_b) = &config.contrast;
     let scope_words = if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
@@ -898,6 +975,7 @@ fn compare_with_covariates(
         )?;
     }
     write_permutation_maps(config, features, (rows_a, rows_b, columns), scope, maps_dir, &sidecar)?;
+    effects.push((scope.to_string(), test.estimate.clone(), test.t.clone(), test.q.clone()));
     let significant = test.q.iter().filter(|&&q| q < config.alpha).count();
     let (peak_index, peak_t) = test
         .t

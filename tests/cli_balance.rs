@@ -228,3 +228,56 @@ fn nuisance_columns_change_the_similarity_but_not_the_maps() {
         "{stderr}"
     );
 }
+
+#[test]
+fn contrast_correlations_top_edges_and_network_blocks() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("results");
+    let out_text = out.to_str().unwrap();
+    let atlas = "atlases/northfield100/northfield100_regions.tsv";
+    let output = strata(&small_cohort_args(out_text, &["--atlas", atlas]), root);
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    let diff = |scope: &str| -> ndarray::Array2<f32> {
+        ndarray_npy::read_npy(out.join(format!("maps/comm-{scope}_contrast-insomniaVsControl_diff.npy")))
+            .unwrap()
+    };
+    let upper = |matrix: &ndarray::Array2<f32>| -> Vec<f64> {
+        let r = matrix.nrows();
+        (0..r).flat_map(|i| (i + 1..r).map(move |j| (i, j))).map(|(i, j)| f64::from(matrix[[i, j]])).collect()
+    };
+    // Pearson r of the whole-cohort and community-1 difference maps, recomputed here from the
+    // written maps with the textbook formula (4 decimals in the table: format_number keeps 6).
+    let (a, b) = (upper(&diff("all")), upper(&diff("1")));
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let (ma, mb) = (mean(&a), mean(&b));
+    let cross: f64 = a.iter().zip(&b).map(|(x, y)| (x - ma) * (y - mb)).sum();
+    let r = cross
+        / (a.iter().map(|x| (x - ma).powi(2)).sum::<f64>() * b.iter().map(|y| (y - mb).powi(2)).sum::<f64>())
+            .sqrt();
+    let table = rows(&out.join("contrast_correlations.tsv"));
+    assert_eq!(table[0], ["community_a", "community_b", "correlation", "features"]);
+    let row = table.iter().find(|row| row[0] == "all" && row[1] == "1").unwrap();
+    approx::assert_abs_diff_eq!(row[2].parse::<f64>().unwrap(), r, epsilon = 1e-5);
+    assert_eq!(row[3], "4950");
+    // Top edges name their regions from the atlas.
+    let top = rows(&out.join("top_edges.tsv"));
+    assert_eq!(top.len(), 1 + 20 * 4);
+    let atlas_rows = rows(&root.join(atlas));
+    let first = &top[1];
+    let region: usize = first[2].parse().unwrap();
+    assert_eq!(first[4], atlas_rows[region][1]);
+    // Default x Default block of the whole cohort: mean of diff over edges within Default.
+    let networks: Vec<&str> = atlas_rows[1..].iter().map(|row| row[2].as_str()).collect();
+    let matrix = diff("all");
+    let within: Vec<f64> = (0..100)
+        .flat_map(|i| (i + 1..100).map(move |j| (i, j)))
+        .filter(|&(i, j)| networks[i] == "Default" && networks[j] == "Default")
+        .map(|(i, j)| f64::from(matrix[[i, j]]))
+        .collect();
+    let blocks = rows(&out.join("network_blocks.tsv"));
+    let block =
+        blocks.iter().find(|row| row[0] == "all" && row[1] == "Default" && row[2] == "Default").unwrap();
+    assert_eq!(block[3], within.len().to_string());
+    approx::assert_abs_diff_eq!(block[4].parse::<f64>().unwrap(), mean(&within), epsilon = 1e-5);
+}

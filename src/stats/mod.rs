@@ -18,6 +18,7 @@ pub mod glm;
 pub mod model;
 pub mod oneway;
 pub mod permutation;
+pub mod summaries;
 pub mod welch;
 
 pub use contingency::{
