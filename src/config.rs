@@ -45,6 +45,11 @@ pub const DEFAULT_CONSENSUS_THRESHOLD: f64 = 0.5;
 /// typical values (strata's choice) at a cost of ten all-pairs path searches.
 pub const DEFAULT_RANDOM_GRAPHS: usize = 10;
 
+/// Default number of permutations for the family-wise p maps: 0 (off). Permutations multiply the
+/// comparison's cost by their number, so they are asked for (`--permutations 5000` is common
+/// practice for a family-wise p near 0.05; Nichols & Holmes 2002 use thousands).
+pub const DEFAULT_PERMUTATIONS: usize = 0;
+
 /// Default run seed.
 pub const DEFAULT_SEED: u64 = 20_261_202;
 
@@ -139,6 +144,18 @@ pub struct RunConfig {
     pub subsample_fraction: f64,
     /// False-discovery level for counting surviving features.
     pub alpha: f64,
+    /// Participants-table columns given with `--covariates`: the comparison model becomes the
+    /// linear model group + covariates, and these columns are tested for balance across
+    /// communities (`covariates.tsv`). `None` when the flag is absent: Welch comparisons, and
+    /// every column other than `participant_id` and the group column tested for balance.
+    pub covariates: Option<Vec<String>>,
+    /// Participants-table columns regressed out of the features before the similarity step.
+    pub nuisance: Vec<String>,
+    /// A participants-table column tested for association with community membership
+    /// (`outcome.tsv`).
+    pub outcome: Option<String>,
+    /// Permutations for the per-feature and family-wise permutation p maps (0 = none).
+    pub permutations: usize,
     /// Run seed.
     pub seed: u64,
     /// Worker threads (0 = one per core).
@@ -316,6 +333,27 @@ pub enum GraphRule {
 /// The default neighbour counts of k-nearest-neighbour sweeps.
 pub const DEFAULT_NEIGHBOURS_TEXT: &str = "5:30:5";
 
+/// Parses a comma-separated list of participants-table columns (`age,sex,mean_fd`) for `flag`.
+pub fn parse_columns(flag: &str, text: &str) -> Result<Vec<String>, ConfigError> {
+    let columns: Vec<String> =
+        text.split(',').map(str::trim).filter(|part| !part.is_empty()).map(str::to_string).collect();
+    if columns.is_empty() {
+        return Err(invalid(
+            flag,
+            format!("no column given in '{text}'; for example {flag} age,sex,mean_fd"),
+        ));
+    }
+    for (index, column) in columns.iter().enumerate() {
+        if columns[..index].contains(column) {
+            return Err(invalid(flag, format!("column '{column}' is listed twice; list each column once")));
+        }
+        if column == "participant_id" {
+            return Err(invalid(flag, "participant_id identifies participants and cannot be a covariate"));
+        }
+    }
+    Ok(columns)
+}
+
 /// Parses `A,B` into the contrast levels.
 pub fn parse_contrast(text: &str) -> Result<(String, String), ConfigError> {
     let parts: Vec<&str> = text.split(',').map(str::trim).collect();
@@ -374,6 +412,10 @@ impl RunConfig {
             subsamples: crate::validation::DEFAULT_SUBSAMPLES,
             subsample_fraction: crate::validation::DEFAULT_SUBSAMPLE_FRACTION,
             alpha: DEFAULT_ALPHA,
+            covariates: None,
+            permutations: DEFAULT_PERMUTATIONS,
+            outcome: None,
+            nuisance: Vec::new(),
             seed: DEFAULT_SEED,
             threads: 0,
         }
@@ -420,6 +462,34 @@ impl RunConfig {
             return Err(invalid(
                 "--consensus-threshold",
                 format!("{} must lie strictly between 0 and 1", self.consensus_threshold),
+            ));
+        }
+        if let Some(column) = self.covariates.iter().flatten().find(|column| **column == self.group_column) {
+            return Err(invalid(
+                "--covariates",
+                format!("'{column}' is the --group-column; the group enters every comparison already, list other columns"),
+            ));
+        }
+        if self.outcome.as_deref() == Some(self.group_column.as_str()) {
+            return Err(invalid(
+                "--outcome",
+                format!(
+                    "'{}' is the --group-column; composition.tsv already tests it against the communities",
+                    self.group_column
+                ),
+            ));
+        }
+        if self.permutations > 0 && 1.0 / (self.permutations as f64 + 1.0) > self.alpha {
+            return Err(invalid(
+                "--permutations",
+                format!(
+                    "{} permutations give a smallest attainable p of 1/{} = {:.3}, above --alpha {}; use at least {} permutations",
+                    self.permutations,
+                    self.permutations + 1,
+                    1.0 / (self.permutations as f64 + 1.0),
+                    self.alpha,
+                    (1.0 / self.alpha).ceil() as usize
+                ),
             ));
         }
         if !(self.alpha > 0.0 && self.alpha < 1.0) {

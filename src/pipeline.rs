@@ -165,16 +165,41 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             }
         };
         let groups = group_labels(config, &cohort)?;
+        if let Some(missing) = config
+            .covariates
+            .iter()
+            .flatten()
+            .chain(&config.outcome)
+            .chain(&config.nuisance)
+            .find(|column| cohort.table.column(column).is_none())
+        {
+            let flag = if config.outcome.as_ref() == Some(missing) {
+                "--outcome"
+            } else if config.nuisance.contains(missing) {
+                "--nuisance"
+            } else {
+                "--covariates"
+            };
+            return Err(ConfigError::Invalid {
+                flag: flag.into(),
+                message: format!(
+                    "{}: no column '{missing}'; the table has: {}",
+                    cohort.table.path().display(),
+                    cohort.table.columns().join(", ")
+                ),
+            }
+            .into());
+        }
         Ok((cohort, groups, given))
     })?;
 
-    let (features, similarity) = match given_similarity {
+    let (features, similarity, row_norms) = match given_similarity {
         Some(similarity) => {
             log.note(&format!(
                 "{} participants, precomputed similarity matrix (no features: no maps or comparisons)",
                 cohort.participant_ids.len()
             ));
-            (None, similarity)
+            (None, similarity, None)
         }
         None => {
             log.note(&format!(
@@ -220,11 +245,19 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 done.clipped_values,
                 (done.participants * done.features * 4) as f64 / 1_048_576.0
             ));
+            let adjusted = timings.time(log, "nuisance", || remove_nuisance(config, &cohort, &features))?;
+            let compared = adjusted.as_ref().unwrap_or(&features.matrix);
             let similarity = timings.time(log, "similarity", || {
-                let _bar = log.progress("similarity", features.matrix.feature_count(), "features");
-                similarity::pearson(&features.matrix)
+                let _bar = log.progress("similarity", compared.feature_count(), "features");
+                similarity::pearson(compared)
             });
-            (Some(features), similarity)
+            // The null test rotates the centred rows the similarity was computed from.
+            let (_, inverse_norms) = similarity::standardise_rows(compared);
+            let row_norms: Vec<f64> = inverse_norms
+                .iter()
+                .map(|&inverse| if inverse > 0.0 { 1.0 / inverse } else { 0.0 })
+                .collect();
+            (Some(features), similarity, Some(row_norms))
         }
     };
     log.note(&format!(
@@ -260,7 +293,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         log,
         &mut timings,
         &similarity,
-        features.as_ref(),
+        row_norms.as_deref(),
         &communities,
         &community_options,
     )?;
@@ -287,12 +320,16 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             .push(Warning::MissingGroupLabel { column: config.group_column.clone(), participants: missing });
     }
 
+    timings.time(log, "balance", || {
+        write_balance(config, &output, &cohort, &groups.labels, &communities, &mut warnings)
+    })?;
+
     let comparisons = match &features {
         Some(features) => {
             log.note("group comparisons and maps");
             let maps_dir = output.subdir("maps")?;
             timings.time(log, "compare", || {
-                compare_and_write(config, features, &groups, &communities, &maps_dir, &mut warnings)
+                compare_and_write(config, &cohort, features, &groups, &communities, &maps_dir, &mut warnings)
             })?
         }
         None => not_compared(config, &groups, &communities),
@@ -386,7 +423,7 @@ fn validate(
     log: &Log,
     timings: &mut Timings,
     similarity: &SimilarityMatrix,
-    features: Option<&Features>,
+    row_norms: Option<&[f64]>,
     communities: &CommunityResult,
     options: &CommunityOptions,
 ) -> Result<Validated, Error> {
@@ -397,10 +434,6 @@ fn validate(
             config.null_draws
         ));
         // The rotation acts on the centred feature rows before standardisation (docs/methods.md).
-        let row_norms: Option<Vec<f64>> = features.map(|features| {
-            let (_, inverse_norms) = similarity::standardise_rows(&features.matrix);
-            inverse_norms.iter().map(|&inverse| if inverse > 0.0 { 1.0 / inverse } else { 0.0 }).collect()
-        });
         let null_options = crate::validation::NullOptions {
             draws: config.null_draws,
             alpha: config.alpha,
@@ -412,13 +445,7 @@ fn validate(
                 config.null_draws * options.levels.len() * options.trials,
                 "trials",
             );
-            crate::validation::null_test(
-                similarity,
-                row_norms.as_deref(),
-                communities,
-                options,
-                &null_options,
-            )
+            crate::validation::null_test(similarity, row_norms, communities, options, &null_options)
         });
         match outcome {
             Ok(result) => {
@@ -592,6 +619,67 @@ fn collect_community_warnings(
     }
 }
 
+/// composition.tsv and covariates.tsv (`stats::balance`), with a warning per covariate that
+/// differs across communities.
+fn write_balance(
+    config: &RunConfig,
+    output: &OutputFolder,
+    cohort: &Cohort,
+    labels: &[Option<String>],
+    communities: &CommunityResult,
+    warnings: &mut Vec<Warning>,
+) -> Result<(), Error> {
+    use crate::report::balance::balance_table;
+    let membership = &communities.partition.membership;
+    let labels: Vec<Option<&str>> = labels.iter().map(Option::as_deref).collect();
+    let composition =
+        stats::balance::composition_tests(&config.group_column, membership, &labels, config.seed);
+    balance_table(&composition).write(&output.path().join("composition.tsv"))?;
+    let table = &cohort.table;
+    let excluded =
+        ["participant_id", config.group_column.as_str(), config.match_column.as_deref().unwrap_or("")];
+    let columns: Vec<String> = match &config.covariates {
+        Some(columns) => columns.clone(),
+        None => table.columns().iter().filter(|c| !excluded.contains(&c.as_str())).cloned().collect(),
+    };
+    let mut rows = Vec::new();
+    for (index, column) in columns.iter().enumerate() {
+        let values = table.column(column).ok_or_else(|| ConfigError::Invalid {
+            flag: "--covariates".into(),
+            message: format!(
+                "{}: no column '{column}'; the table has: {}",
+                table.path().display(),
+                table.columns().join(", ")
+            ),
+        })?;
+        let (tests, imbalance) = stats::balance::covariate_tests(
+            column,
+            &values,
+            membership,
+            config.alpha,
+            config.seed,
+            index as u64,
+        );
+        rows.extend(tests);
+        if let Some(imbalance) = imbalance {
+            warnings.push(Warning::CovariateImbalance {
+                column: imbalance.variable,
+                description: imbalance.description,
+            });
+        }
+    }
+    balance_table(&rows).write(&output.path().join("covariates.tsv"))?;
+    if let Some(column) = &config.outcome {
+        let values = table.column(column).unwrap_or_default();
+        let draws =
+            if config.permutations > 0 { config.permutations } else { stats::balance::MONTE_CARLO_DRAWS };
+        let (tests, _) =
+            stats::balance::outcome_tests(column, &values, membership, config.alpha, config.seed, draws);
+        balance_table(&tests).write(&output.path().join("outcome.tsv"))?;
+    }
+    Ok(())
+}
+
 /// Cohort rows of `community` (0 = unassigned).
 fn members_of(communities: &CommunityResult, community: usize) -> Vec<usize> {
     communities
@@ -641,8 +729,10 @@ fn not_compared(
         .collect()
 }
 
+#[allow(clippy::too_many_arguments)]
 fn compare_and_write(
     config: &RunConfig,
+    cohort: &Cohort,
     features: &Features,
     groups: &Groups,
     communities: &CommunityResult,
@@ -653,6 +743,8 @@ fn compare_and_write(
     let space = &features.space;
     let matrix = &features.matrix;
     let mut summaries = Vec::new();
+    let covariates = covariate_columns(config, cohort, warnings);
+    let mut effects: Vec<ContrastMaps> = Vec::new();
     for (scope, rows) in scopes(communities) {
         let scope_words =
             if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
@@ -712,6 +804,21 @@ fn compare_and_write(
             });
             continue;
         }
+        if let Some(columns) = &covariates {
+            let counts = (rows_a.len(), rows_b.len());
+            let summary = compare_with_covariates(
+                config,
+                features,
+                columns,
+                (&rows_a, &rows_b),
+                &scope,
+                maps_dir,
+                &base_sidecar,
+                (warnings, &mut effects),
+            )?;
+            summaries.push(summary.unwrap_or_else(|reason| skipped(&scope, counts, reason)));
+            continue;
+        }
         let comparison = stats::welch_comparison(matrix, &rows_a, &rows_b).map_err(|error| {
             ConfigError::Invalid { flag: "--contrast".into(), message: format!("{scope_words}: {error}") }
         })?;
@@ -756,6 +863,14 @@ fn compare_and_write(
                 t_dof,
             )?;
         }
+        let permutation_input = (&rows_a[..], &rows_b[..], covariates.as_deref().unwrap_or(&[]));
+        write_permutation_maps(config, features, permutation_input, &scope, maps_dir, &contrast_sidecar)?;
+        effects.push((
+            scope.clone(),
+            comparison.difference.clone(),
+            comparison.t.clone(),
+            comparison.q.clone(),
+        ));
         let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
         let (peak_index, peak_t) = comparison
             .t
@@ -777,7 +892,373 @@ fn compare_and_write(
             peak_t,
         });
     }
+    write_interaction(
+        config,
+        features,
+        covariates.as_deref().unwrap_or(&[]),
+        groups,
+        communities,
+        maps_dir,
+        warnings,
+    )?;
+    write_contrast_summaries(config, features, &effects, maps_dir.parent().unwrap_or(maps_dir))?;
     Ok(summaries)
+}
+
+/// The diagnosis x community interaction F, p and q maps (`stats::model::interaction_design`),
+/// or a warning saying why they are not written.
+fn write_interaction(
+    config: &RunConfig,
+    features: &Features,
+    covariates: &[stats::model::CovariateColumn],
+    groups: &Groups,
+    communities: &CommunityResult,
+    maps_dir: &Path,
+    warnings: &mut Vec<Warning>,
+) -> Result<(), Error> {
+    let (level_a, level_b) = &config.contrast;
+    let membership = &communities.partition.membership;
+    let everyone: Vec<usize> = (0..membership.len()).collect();
+    let (rows_a, rows_b) = (groups.rows_of(level_a, &everyone), groups.rows_of(level_b, &everyone));
+    let skip = |reason: String| Warning::ContrastSkipped {
+        scope: "diagnosis x community interaction".into(),
+        reason,
+    };
+    let Some(built) =
+        stats::model::interaction_design(&rows_a, &rows_b, membership, covariates, stats::MIN_GROUP_SIZE)
+    else {
+        warnings.push(skip(format!(
+            "fewer than 2 communities with at least {} participants of each level",
+            stats::MIN_GROUP_SIZE
+        )));
+        return Ok(());
+    };
+    let contrasts: Vec<Vec<f64>> = built
+        .interaction_columns
+        .iter()
+        .map(|&column| (0..built.design.column_count()).map(|j| f64::from(u8::from(j == column))).collect())
+        .collect();
+    let test = match stats::fit_linear_model(&features.matrix, &built.rows, &built.design)
+        .and_then(|model| stats::contrast_f(&model, &contrasts))
+    {
+        Ok(test) => test,
+        Err(error) => {
+            warnings.push(skip(error.to_string()));
+            return Ok(());
+        }
+    };
+    let count_a = built.rows.iter().filter(|row| rows_a.contains(row)).count();
+    let dof = [test.dof_numerator, test.dof_denominator];
+    let sidecar = with(
+        &maps::contrast_fields(level_a, count_a, level_b, built.rows.len() - count_a),
+        json!({
+            "Community": "all",
+            "Communities": built.communities,
+            "GroupColumn": config.group_column,
+            "Test": "F test of the group x community terms: full linear model against the model without them",
+            "Model": built.design.columns,
+            "DegreesOfFreedom": dof,
+        }),
+    );
+    let p_map: Vec<f32> = test.p.iter().map(|&p| p as f32).collect();
+    let q_map: Vec<f32> = test.q.iter().map(|&q| q as f32).collect();
+    let outputs: [(Statistic, &[f32], &str); 3] = [
+        (Statistic::F, &test.f, "F of the diagnosis x community interaction"),
+        (Statistic::P, &p_map, "Uncorrected p of the interaction F"),
+        (Statistic::Q, &q_map, "Benjamini-Hochberg q of the interaction p across all features of this map"),
+    ];
+    for (statistic, values, description) in outputs {
+        let name = MapName::builder()
+            .community("all")
+            .contrast(level_a, level_b)
+            .interaction()
+            .build_for(statistic)?;
+        let extra = json!({"Description": format!("{description}: does {level_a} - {level_b} differ across communities?")});
+        maps::write_map_with_dof(
+            maps_dir,
+            &features.space,
+            &name,
+            statistic,
+            values,
+            &with(&sidecar, extra),
+            &dof,
+        )?;
+    }
+    Ok(())
+}
+
+/// Permutation p and family-wise p maps of one scope's contrast (`--permutations`): Freedman-Lane
+/// on the linear model group + covariates (`stats::permutation`), seeded per scope.
+fn write_permutation_maps(
+    config: &RunConfig,
+    features: &Features,
+    (rows_a, rows_b, columns): (&[usize], &[usize], &[stats::model::CovariateColumn]),
+    scope: &str,
+    maps_dir: &Path,
+    sidecar: &serde_json::Value,
+) -> Result<(), Error> {
+    if config.permutations == 0 {
+        return Ok(());
+    }
+    let (level_a, level_b) = &config.contrast;
+    let (design, rows, group) = stats::model::group_design(rows_a, rows_b, columns);
+    let scope_seed =
+        crate::seed::derive(config.seed, "permutation-scope", &[scope.parse::<u64>().unwrap_or(0)]);
+    let permutations = stats::permutation::random_permutations(rows.len(), config.permutations, scope_seed);
+    let Ok(test) = stats::permutation::freedman_lane(&features.matrix, &rows, &design, group, &permutations)
+    else {
+        return Ok(()); // the model cannot be fitted in this scope: the contrast maps say so already
+    };
+    let extra = json!({
+        "Test": "two-sided t of the group coefficient of the linear model, permutation inference",
+        "Permutations": test.permutations,
+        "SmallestAttainableP": test.smallest_p,
+        "PermutationMethod": "Freedman-Lane on the linear model below (plain permutation of the data when it holds only the intercept and group)",
+        "Model": design.columns,
+    });
+    let pairs = [(Statistic::PermutationP, &test.p_uncorrected), (Statistic::FamilyWiseP, &test.p_fwe)];
+    for (statistic, values) in pairs {
+        let values: Vec<f32> = values.iter().map(|&p| p as f32).collect();
+        let name = MapName::builder().community(scope).contrast(level_a, level_b).build_for(statistic)?;
+        let described = with(
+            &with(sidecar, extra.clone()),
+            json!({"Description": format!("{} ({level_a} - {level_b})", statistic.description())}),
+        );
+        maps::write_map(maps_dir, &features.space, &name, statistic, &values, &described, None)?;
+    }
+    Ok(())
+}
+
+/// The features with the `--nuisance` columns regressed out (`features::nuisance`), for the
+/// similarity step only; `None` without the flag.
+fn remove_nuisance(
+    config: &RunConfig,
+    cohort: &Cohort,
+    features: &Features,
+) -> Result<Option<features::FeatureMatrix>, Error> {
+    if config.nuisance.is_empty() {
+        return Ok(None);
+    }
+    let invalid = |message: String| ConfigError::Invalid { flag: "--nuisance".into(), message };
+    let columns: Vec<_> = config
+        .nuisance
+        .iter()
+        .filter_map(|name| {
+            cohort.table.column(name).map(|cells| stats::model::CovariateColumn::new(name, &cells))
+        })
+        .collect();
+    let design = stats::model::nuisance_design(&columns, cohort.participant_ids.len()).map_err(|rows| {
+        let ids: Vec<&str> = rows.iter().map(|&row| cohort.participant_ids[row].as_str()).collect();
+        invalid(format!(
+            "{}: participant(s) {} have no value (n/a) in {}; nuisance regression needs a value for everyone: fill them or remove these participants",
+            cohort.table.path().display(),
+            ids.join(", "),
+            config.nuisance.join(", ")
+        ))
+    })?;
+    let adjusted =
+        features::nuisance::regress_out(&features.matrix, &design.values, design.column_count())
+            .map_err(|message| invalid(format!("{} (columns {})", message, design.columns.join(", "))))?;
+    Ok(Some(adjusted))
+}
+
+/// Scope, difference (or adjusted estimate), t and q of a written contrast.
+type ContrastMaps = (String, Vec<f32>, Vec<f32>, Vec<f64>);
+
+/// Features listed per scope in `top_edges.tsv`.
+const TOP_EDGES: usize = 20;
+
+/// contrast_correlations.tsv (every pair of written contrast maps); for region matrices also
+/// top_edges.tsv and, with an atlas `network` column, network_blocks.tsv (`stats::summaries`).
+fn write_contrast_summaries(
+    config: &RunConfig,
+    features: &Features,
+    effects: &[ContrastMaps],
+    dir: &Path,
+) -> Result<(), Error> {
+    let mut table = Table::new(["community_a", "community_b", "correlation", "features"]);
+    for (index, (scope_a, difference_a, ..)) in effects.iter().enumerate() {
+        for (scope_b, difference_b, ..) in &effects[index + 1..] {
+            let (r, n) = stats::summaries::map_correlation(difference_a, difference_b);
+            table.push(vec![scope_a.clone(), scope_b.clone(), format_number(r), n.to_string()]);
+        }
+    }
+    table.write(&dir.join("contrast_correlations.tsv"))?;
+    let FeatureSpace::Edges(edges) = &features.space else { return Ok(()) };
+    let mut top =
+        Table::new(["community", "rank", "region_i", "region_j", "name_i", "name_j", "difference", "t", "q"]);
+    for (scope, difference, t, q) in effects {
+        for (rank, index) in stats::summaries::top_features(t, TOP_EDGES).into_iter().enumerate() {
+            let (i, j) = edges.edge(index);
+            top.push(vec![
+                scope.clone(),
+                (rank + 1).to_string(),
+                (i + 1).to_string(),
+                (j + 1).to_string(),
+                edges.region_names[i].clone(),
+                edges.region_names[j].clone(),
+                format_number(f64::from(difference[index])),
+                format_number(f64::from(t[index])),
+                format_number(q[index]),
+            ]);
+        }
+    }
+    top.write(&dir.join("top_edges.tsv"))?;
+    let Some(atlas) = &config.atlas else { return Ok(()) };
+    let atlas_table = read::read_table(atlas)?;
+    let Some(networks) = atlas_table.column("network") else { return Ok(()) };
+    let networks: Vec<String> = networks.iter().map(|n| n.trim().to_string()).collect();
+    if networks.len() != edges.region_count {
+        return Ok(());
+    }
+    let mut blocks =
+        Table::new(["community", "network_a", "network_b", "edges", "mean_difference", "mean_t"]);
+    for (scope, difference, t, _) in effects {
+        let means = stats::summaries::network_blocks(edges, &networks, difference);
+        let t_means = stats::summaries::network_blocks(edges, &networks, t);
+        for (block, t_block) in means.iter().zip(&t_means) {
+            blocks.push(vec![
+                scope.clone(),
+                block.network_a.clone(),
+                block.network_b.clone(),
+                block.edges.to_string(),
+                format_number(block.mean),
+                format_number(t_block.mean),
+            ]);
+        }
+    }
+    blocks.write(&dir.join("network_blocks.tsv"))?;
+    Ok(())
+}
+
+/// The `--covariates` columns of the comparison model (None without the flag), with a warning
+/// naming the participants left out for a missing value.
+fn covariate_columns(
+    config: &RunConfig,
+    cohort: &Cohort,
+    warnings: &mut Vec<Warning>,
+) -> Option<Vec<stats::model::CovariateColumn>> {
+    let names = config.covariates.as_ref()?;
+    let columns: Vec<_> = names
+        .iter()
+        .filter_map(|name| {
+            cohort.table.column(name).map(|cells| stats::model::CovariateColumn::new(name, &cells))
+        })
+        .collect();
+    let missing = stats::model::rows_with_missing(&columns, cohort.participant_ids.len());
+    if !missing.is_empty() {
+        warnings.push(Warning::MissingCovariate {
+            columns: names.clone(),
+            participants: missing.iter().map(|&row| cohort.participant_ids[row].clone()).collect(),
+        });
+    }
+    Some(columns)
+}
+
+/// The row of `comparisons.tsv` for a scope without maps.
+fn skipped(scope: &str, (count_a, count_b): (usize, usize), reason: String) -> ComparisonSummary {
+    ComparisonSummary {
+        scope: scope.to_string(),
+        count_a,
+        count_b,
+        written: false,
+        reason: Some(reason),
+        significant_features: 0,
+        max_abs_t: f64::NAN,
+        peak: String::new(),
+        peak_t: f64::NAN,
+    }
+}
+
+/// The A - B contrast of one scope in the linear model `group + covariates` (`stats::glm`):
+/// adjusted difference, t (uniform dof), p and q maps. `Ok(Err(reason))` when the model cannot
+/// be fitted in this scope (too few participants, a covariate constant within it).
+#[allow(clippy::too_many_arguments)]
+fn compare_with_covariates(
+    config: &RunConfig,
+    features: &Features,
+    columns: &[stats::model::CovariateColumn],
+    (rows_a, rows_b): (&[usize], &[usize]),
+    scope: &str,
+    maps_dir: &Path,
+    base_sidecar: &serde_json::Value,
+    (warnings, effects): (&mut Vec<Warning>, &mut Vec<ContrastMaps>),
+) -> Result<Result<ComparisonSummary, String>, Error> {
+    let (level_a, level_b) = &config.contrast;
+    let scope_words = if scope == "all" { "whole cohort".to_string() } else { format!("community {scope}") };
+    let (design, rows, group) = stats::model::group_design(rows_a, rows_b, columns);
+    let count_a = rows.iter().filter(|row| rows_a.contains(row)).count();
+    let count_b = rows.len() - count_a;
+    let fitted = stats::fit_linear_model(&features.matrix, &rows, &design).and_then(|model| {
+        let mut weights = vec![0.0; design.column_count()];
+        weights[group] = 1.0;
+        stats::contrast_t(&model, &weights)
+    });
+    let test = match fitted {
+        Ok(test) if count_a >= 2 && count_b >= 2 => test,
+        Ok(_) | Err(_) => {
+            let reason = match fitted {
+                Err(error) => error.to_string(),
+                Ok(_) => format!("fewer than 2 participants with covariates in a level ({level_a}: {count_a}, {level_b}: {count_b})"),
+            };
+            warnings.push(Warning::ContrastSkipped { scope: scope_words, reason: reason.clone() });
+            return Ok(Err(reason));
+        }
+    };
+    let sidecar = with(
+        &with(base_sidecar, maps::contrast_fields(level_a, count_a, level_b, count_b)),
+        json!({
+            "Test": "general linear model, t test of the group coefficient, two-sided",
+            "Model": design.columns,
+        }),
+    );
+    let p_map: Vec<f32> = test.p.iter().map(|&p| p as f32).collect();
+    let q_map: Vec<f32> = test.q.iter().map(|&q| q as f32).collect();
+    let outputs: [(Statistic, &[f32], &str); 4] = [
+        (
+            Statistic::Difference,
+            &test.estimate,
+            "Covariate-adjusted mean Fisher z difference (group coefficient)",
+        ),
+        (Statistic::T, &test.t, "t of the group coefficient"),
+        (Statistic::P, &p_map, "Two-sided uncorrected p of the group coefficient"),
+        (Statistic::Q, &q_map, "Benjamini-Hochberg q across all features of this map"),
+    ];
+    for (statistic, values, description) in outputs {
+        let name = MapName::builder().community(scope).contrast(level_a, level_b).build_for(statistic)?;
+        let extra = json!({"Description": format!("{description} of {level_a} - {level_b}, {scope_words}")});
+        maps::write_map(
+            maps_dir,
+            &features.space,
+            &name,
+            statistic,
+            values,
+            &with(&sidecar, extra),
+            Some(test.dof),
+        )?;
+    }
+    write_permutation_maps(config, features, (rows_a, rows_b, columns), scope, maps_dir, &sidecar)?;
+    effects.push((scope.to_string(), test.estimate.clone(), test.t.clone(), test.q.clone()));
+    let significant = test.q.iter().filter(|&&q| q < config.alpha).count();
+    let (peak_index, peak_t) = test
+        .t
+        .iter()
+        .enumerate()
+        .filter(|(_, t)| t.is_finite())
+        .max_by(|(ia, a), (ib, b)| a.abs().total_cmp(&b.abs()).then(ib.cmp(ia)))
+        .map(|(index, &t)| (index, f64::from(t)))
+        .unwrap_or((0, f64::NAN));
+    Ok(Ok(ComparisonSummary {
+        scope: scope.to_string(),
+        count_a,
+        count_b,
+        written: true,
+        reason: None,
+        significant_features: significant,
+        max_abs_t: peak_t.abs(),
+        peak: describe_feature(&features.space, peak_index),
+        peak_t,
+    }))
 }
 
 /// Merges two JSON objects (the second wins).

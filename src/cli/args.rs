@@ -425,6 +425,27 @@ pub struct RunArgs {
     /// False-discovery level used to count surviving features in the tables.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA, help_heading = "Comparison")]
     pub alpha: f64,
+    /// Participants-table columns (numeric or categorical, `n/a` for missing) entering the
+    /// comparison model: each scope's A - B contrast becomes a linear model group + covariates
+    /// (categorical columns dummy-coded; participants with n/a left out, with a warning), and
+    /// only these columns are tested for balance in covariates.tsv. Default: Welch t maps, and
+    /// every column other than participant_id and --group-column tested for balance.
+    #[arg(long, value_name = "COLUMN,...", help_heading = "Comparison")]
+    pub covariates: Option<String>,
+    /// Permutations for the permutation p and family-wise (max-statistic) p maps of every
+    /// contrast (Freedman-Lane with covariates); 0 writes none. Seeded by --seed.
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_PERMUTATIONS, help_heading = "Comparison")]
+    pub permutations: usize,
+    /// Participants-table column (for example a follow-up score) tested for association with
+    /// community membership in outcome.tsv, with effect size and a permutation p (--permutations
+    /// shuffles, or 9,999 when 0).
+    #[arg(long, value_name = "COLUMN", help_heading = "Comparison")]
+    pub outcome: Option<String>,
+    /// Participants-table columns (numeric or categorical) regressed out of every feature
+    /// before the participant similarity (the maps keep the original features; use
+    /// --covariates there). Every participant needs a value.
+    #[arg(long, value_name = "COLUMN,...", help_heading = "Features")]
+    pub nuisance: Option<String>,
 
     /// How the sweep's participant graphs are cut from the similarity matrix: density
     /// (strongest fraction of all pairs), knn or mutual-knn (each participant's k most similar),
@@ -575,6 +596,19 @@ impl RunArgs {
             subsamples: self.subsamples,
             subsample_fraction: self.subsample_fraction,
             alpha: self.alpha,
+            covariates: self
+                .covariates
+                .as_deref()
+                .map(|text| config::parse_columns("--covariates", text))
+                .transpose()?,
+            permutations: self.permutations,
+            outcome: self.outcome,
+            nuisance: self
+                .nuisance
+                .as_deref()
+                .map(|text| config::parse_columns("--nuisance", text))
+                .transpose()?
+                .unwrap_or_default(),
             seed: self.seed,
             threads: self.threads,
         }

@@ -8,6 +8,7 @@
 mod build;
 mod error;
 mod fisher;
+pub mod nuisance;
 
 pub use build::{
     build_features, standardise_measures, FeatureOptions, FeatureSummary, Features, Standardised, ValueScale,

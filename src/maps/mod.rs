@@ -13,7 +13,8 @@ pub mod write;
 
 pub use naming::{contrast_label, sanitise_label, MapName, MapNameBuilder};
 pub use write::{
-    contrast_fields, groups_field, write_bytes_atomically, write_map, write_mask, NIFTI_GZIP_LEVEL,
+    contrast_fields, groups_field, write_bytes_atomically, write_map, write_map_with_dof, write_mask,
+    NIFTI_GZIP_LEVEL,
 };
 
 use std::path::PathBuf;
@@ -75,6 +76,8 @@ pub mod intent {
     pub const NONE: i16 = 0;
     /// `NIFTI_INTENT_TTEST`: Student's t; `intent_p1` = degrees of freedom.
     pub const TTEST: i16 = 3;
+    /// `NIFTI_INTENT_FTEST`: Fisher's F; `intent_p1` = numerator, `intent_p2` = denominator dof.
+    pub const FTEST: i16 = 4;
     /// `NIFTI_INTENT_PVAL`: a p value.
     pub const PVAL: i16 = 22;
     /// `NIFTI_INTENT_ESTIMATE`: an estimate of some parameter, named in `intent_name`.
@@ -98,11 +101,17 @@ pub enum Statistic {
     Q,
     /// Hedges g (bias-corrected standardised difference).
     HedgesG,
+    /// F statistic of a set of contrasts (the diagnosis x community interaction).
+    F,
+    /// Per-feature permutation p of the linear-model t.
+    PermutationP,
+    /// Family-wise (max-statistic) permutation p of the linear-model t.
+    FamilyWiseP,
 }
 
 impl Statistic {
     /// Every statistic, in the order maps are listed.
-    pub const ALL: [Statistic; 7] = [
+    pub const ALL: [Statistic; 10] = [
         Statistic::Mean,
         Statistic::Difference,
         Statistic::T,
@@ -110,6 +119,9 @@ impl Statistic {
         Statistic::P,
         Statistic::Q,
         Statistic::HedgesG,
+        Statistic::F,
+        Statistic::PermutationP,
+        Statistic::FamilyWiseP,
     ];
 
     /// The file-name suffix.
@@ -122,6 +134,9 @@ impl Statistic {
             Statistic::P => "p",
             Statistic::Q => "q",
             Statistic::HedgesG => "g",
+            Statistic::F => "F",
+            Statistic::PermutationP => "pperm",
+            Statistic::FamilyWiseP => "pfwe",
         }
     }
 
@@ -137,8 +152,10 @@ impl Statistic {
         match self {
             Statistic::T if uniform_dof => intent::TTEST,
             Statistic::T => intent::NONE,
+            Statistic::F if uniform_dof => intent::FTEST,
+            Statistic::F => intent::NONE,
             Statistic::Mean | Statistic::Difference | Statistic::Dof | Statistic::HedgesG => intent::ESTIMATE,
-            Statistic::P | Statistic::Q => intent::PVAL,
+            Statistic::P | Statistic::Q | Statistic::PermutationP | Statistic::FamilyWiseP => intent::PVAL,
         }
     }
 
@@ -152,6 +169,9 @@ impl Statistic {
             Statistic::P => "p two-sided",
             Statistic::Q => "BH q",
             Statistic::HedgesG => "Hedges g",
+            Statistic::F => "F",
+            Statistic::PermutationP => "perm p",
+            Statistic::FamilyWiseP => "FWE p",
         }
     }
 
@@ -164,6 +184,9 @@ impl Statistic {
             Statistic::Dof => "Welch-Satterthwaite degrees of freedom of the Welch t (Satterthwaite 1946; Welch 1947).",
             Statistic::P => "Two-sided p value of the Welch t from Student's t distribution with the Welch-Satterthwaite degrees of freedom; uncorrected.",
             Statistic::Q => "Benjamini-Hochberg adjusted p value (q) of the two-sided Welch p, across all features of this map (Benjamini & Hochberg 1995).",
+            Statistic::PermutationP => "Permutation p of the two-sided linear-model t of the contrast: the share of permutations (the observed order included) whose |t| reaches the observed |t| (Freedman & Lane 1983).",
+            Statistic::FamilyWiseP => "Family-wise error p of the two-sided linear-model t: the share of permutations whose largest |t| over all features of the map reaches the observed |t| (Nichols & Holmes 2002; Freedman & Lane 1983).",
+            Statistic::F => "F statistic of a set of contrasts of a linear model (numerator and denominator degrees of freedom in DegreesOfFreedom).",
             Statistic::HedgesG => "Hedges g: Cohen's d on the pooled standard deviation times the exact small-sample correction J(m) = Gamma(m/2) / (sqrt(m/2) Gamma((m-1)/2)), m = n1 + n2 - 2 (Hedges 1981).",
         }
     }
@@ -172,6 +195,9 @@ impl Statistic {
     pub fn correction(self) -> &'static str {
         match self {
             Statistic::Q => "Benjamini-Hochberg",
+            Statistic::FamilyWiseP => {
+                "family-wise error, max statistic over the map's features (permutation)"
+            }
             _ => "none",
         }
     }
@@ -184,7 +210,13 @@ impl Statistic {
         match self {
             Statistic::Mean | Statistic::Difference => "Fisher z (atanh of Pearson r)",
             Statistic::Dof => "degrees of freedom",
-            Statistic::T | Statistic::P | Statistic::Q | Statistic::HedgesG => "unitless",
+            Statistic::T
+            | Statistic::P
+            | Statistic::Q
+            | Statistic::HedgesG
+            | Statistic::F
+            | Statistic::PermutationP
+            | Statistic::FamilyWiseP => "unitless",
         }
     }
 
@@ -198,7 +230,7 @@ impl Statistic {
     /// everything else (no effect). Chosen over NaN because many viewers and tools mishandle NaN.
     pub fn fill_value(self) -> f32 {
         match self {
-            Statistic::P | Statistic::Q => 1.0,
+            Statistic::P | Statistic::Q | Statistic::PermutationP | Statistic::FamilyWiseP => 1.0,
             _ => 0.0,
         }
     }

@@ -8,9 +8,12 @@
 //! | `comm` | `1`, `2`, ... or `all` | community (subgroup) number, or the whole cohort |
 //! | `contrast` | camelCase, e.g. `insomniaVsControl` | group A minus group B |
 //! | `group` | camelCase label, e.g. `control` | one diagnosis group |
+//! | `effect` | `interaction` | a model term other than the contrast: the diagnosis x community interaction |
 //!
 //! and the suffix names the statistic ([`Statistic::suffix`]): `mean`, `diff`, `t`, `dof`, `p`,
-//! `q`, `g`. Examples: `comm-2_contrast-insomniaVsControl_t`, `comm-all_group-control_mean`,
+//! `q`, `g`, `F`. Examples: `comm-2_contrast-insomniaVsControl_t`, `comm-all_group-control_mean`,
+//! `comm-all_contrast-insomniaVsControl_effect-interaction_F` (the F test that the contrast
+//! differs across communities, with its `_p` and `_q`),
 //! `comm-1_mean` (all participants of community 1 pooled). Keys are lowercase ASCII letters and
 //! digits; values and suffixes ASCII letters and digits only, so names never need quoting and
 //! split unambiguously on `_` and `-`.
@@ -23,6 +26,12 @@ pub const COMMUNITY_KEY: &str = "comm";
 pub const CONTRAST_KEY: &str = "contrast";
 /// Entity key for one group (`group-control`).
 pub const GROUP_KEY: &str = "group";
+/// Entity key for a model term other than the contrast (`effect-interaction`).
+pub const EFFECT_KEY: &str = "effect";
+
+/// Value of [`EFFECT_KEY`] for the diagnosis x community interaction.
+pub const INTERACTION: &str = "interaction";
+
 /// Value of [`COMMUNITY_KEY`] for the whole cohort.
 pub const ALL_COMMUNITIES: &str = "all";
 /// Joins the two sides of a contrast label (`insomnia` + `Vs` + `Control`).
@@ -103,6 +112,11 @@ impl MapNameBuilder {
     pub fn contrast(self, label_a: &str, label_b: &str) -> Self {
         let label = contrast_label(label_a, label_b);
         self.entity(CONTRAST_KEY, &label)
+    }
+
+    /// `effect-interaction`: the diagnosis x community interaction of a contrast.
+    pub fn interaction(self) -> Self {
+        self.entity(EFFECT_KEY, INTERACTION)
     }
 
     /// `group-<label>` from a free-text group label, via [`sanitise_label`].

@@ -80,6 +80,25 @@ pub fn write_map(
     sidecar: &Value,
     t_dof: Option<f64>,
 ) -> Result<Vec<PathBuf>, WriteError> {
+    write_map_with_dof(dir, space, name, statistic, values, sidecar, t_dof.as_slice())
+}
+
+/// [`write_map`] for any statistic with uniform degrees of freedom: one value for t maps (and
+/// their p), two (numerator, denominator) for F maps (and their p), empty when the dof differ
+/// per feature. An F map with two dof is `NIFTI_INTENT_FTEST` with `intent_p1`, `intent_p2`;
+/// the sidecar's `DegreesOfFreedom` holds the number or the pair.
+///
+/// # Errors
+/// As [`write_map`], and [`WriteError::Mismatch`] for more than two dof or two dof on a t map.
+pub fn write_map_with_dof(
+    dir: &Path,
+    space: &FeatureSpace,
+    name: &MapName,
+    statistic: Statistic,
+    values: &[f32],
+    sidecar: &Value,
+    dof: &[f64],
+) -> Result<Vec<PathBuf>, WriteError> {
     let stem = name.file_stem();
     let sidecar_path = dir.join(format!("{stem}.json"));
     if name.suffix() != statistic.suffix() {
@@ -99,11 +118,21 @@ pub fn write_map(
             expected: format!("one value per feature of the feature space ({})", space.feature_count()),
         });
     }
-    let t_dof = match statistic {
-        Statistic::T | Statistic::P => t_dof,
-        _ => None,
+    let dof: &[f64] = match statistic {
+        Statistic::T | Statistic::P | Statistic::F => dof,
+        _ => &[],
     };
-    if let Some(dof) = t_dof {
+    if dof.len() > 2
+        || (statistic == Statistic::T && dof.len() > 1)
+        || (statistic == Statistic::F && dof.len() == 1)
+    {
+        return Err(WriteError::Mismatch {
+            path: sidecar_path,
+            found: format!("{} degrees-of-freedom values for a {} map", dof.len(), statistic.intent_name()),
+            expected: "one for a t map, two (numerator, denominator) for an F map".to_string(),
+        });
+    }
+    for &dof in dof {
         if !(dof.is_finite() && dof > 0.0) {
             return Err(WriteError::Mismatch {
                 path: sidecar_path,
@@ -119,10 +148,11 @@ pub fn write_map(
     fields.insert("Description".into(), json!(statistic.description()));
     fields.insert("Correction".into(), json!(statistic.correction()));
     fields.insert("Units".into(), json!(statistic.units()));
-    if matches!(statistic, Statistic::T | Statistic::P) {
-        let dof = match t_dof {
-            Some(dof) => json!(dof),
-            None => json!(format!(
+    if matches!(statistic, Statistic::T | Statistic::P | Statistic::F) {
+        let dof = match dof {
+            [one] => json!(one),
+            [numerator, denominator] => json!([numerator, denominator]),
+            _ => json!(format!(
                 "per feature (Welch-Satterthwaite): see {}",
                 name.with_suffix(Statistic::Dof.suffix())?.file_stem()
             )),
@@ -138,13 +168,13 @@ pub fn write_map(
     let mut written = match space {
         FeatureSpace::Voxels(voxels) => {
             let path = dir.join(format!("{stem}.nii.gz"));
-            let intent_code = statistic.intent_code(t_dof.is_some());
+            let intent_code = statistic.intent_code(!dof.is_empty());
             fields.insert(
                 "Space".into(),
                 json!({"Kind": "voxels", "Dimensions": voxels.dim, "MaskVoxels": voxels.mask.len(),
                        "IntentCode": intent_code, "IntentName": statistic.intent_name()}),
             );
-            write_nifti_map(&path, voxels, &stem, statistic, values, t_dof)?;
+            write_nifti_map(&path, voxels, &stem, statistic, values, dof)?;
             vec![path]
         }
         FeatureSpace::Edges(edges) => {
@@ -233,7 +263,7 @@ fn check_sidecar<'a>(
 /// As [`write_map`].
 pub fn write_mask(path: &Path, space: &VoxelSpace) -> Result<(), WriteError> {
     let ones = vec![1.0f32; space.mask.len()];
-    write_nifti_map(path, space, "mask", Statistic::Mean, &ones, None)
+    write_nifti_map(path, space, "mask", Statistic::Mean, &ones, &[])
 }
 
 fn write_nifti_map(
@@ -242,7 +272,7 @@ fn write_nifti_map(
     stem: &str,
     statistic: Statistic,
     values: &[f32],
-    t_dof: Option<f64>,
+    dof: &[f64],
 ) -> Result<(), WriteError> {
     let [nx, ny, nz] = space.dim;
     let voxel_count = nx * ny * nz;
@@ -270,12 +300,12 @@ fn write_nifti_map(
 
     let mut header = space.reference_header.clone();
     header.endianness = nifti::Endianness::Little;
-    header.intent_code = statistic.intent_code(t_dof.is_some());
-    header.intent_p1 = match (statistic, t_dof) {
-        (Statistic::T, Some(dof)) => dof as f32,
-        _ => 0.0,
+    header.intent_code = statistic.intent_code(!dof.is_empty());
+    (header.intent_p1, header.intent_p2) = match (statistic, dof) {
+        (Statistic::T, [dof]) => (*dof as f32, 0.0),
+        (Statistic::F, [numerator, denominator]) => (*numerator as f32, *denominator as f32),
+        _ => (0.0, 0.0),
     };
-    header.intent_p2 = 0.0;
     header.intent_p3 = 0.0;
     header.intent_name = [0; 16];
     let intent_name = statistic.intent_name().as_bytes();

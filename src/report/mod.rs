@@ -6,6 +6,7 @@
 //! run folder's files so a finished run can be re-rendered without recomputing). Every warning is a variant of
 //! [`Warning`], whose text gives the likely cause and what to try.
 
+pub mod balance;
 pub mod figures;
 pub mod html;
 mod log;

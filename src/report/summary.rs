@@ -77,6 +77,20 @@ pub enum Warning {
         /// (participant, column) of every missing value.
         entries: Vec<(String, String)>,
     },
+    /// Participants without a value in a `--covariates` column are left out of the comparisons.
+    MissingCovariate {
+        /// The covariate columns.
+        columns: Vec<String>,
+        /// Who.
+        participants: Vec<String>,
+    },
+    /// A participants-table column differs across communities (`covariates.tsv`).
+    CovariateImbalance {
+        /// The column.
+        column: String,
+        /// What differs, in words, with the test's p and effect size.
+        description: String,
+    },
 }
 
 /// A community whose mean best-match Jaccard under resampling falls below this is flagged as
@@ -166,6 +180,20 @@ impl fmt::Display for Warning {
                 f,
                 "subsamples of the cohort give partitions that agree poorly with the full one (median adjusted Rand index {median_ari:.2}, below {LOW_MEDIAN_ARI}): \
                  the number or the borders of the communities are not stable"
+
+            ),
+            Warning::MissingCovariate { columns, participants } => write!(
+                f,
+                "{} participant(s) have no value (n/a) in a covariate column ({}) and are left out of the comparison models \
+                 (they still take part in the communities): {}",
+                participants.len(),
+                columns.join(", "),
+                list_ids(participants)
+            ),
+            Warning::CovariateImbalance { column, description } => write!(
+                f,
+                "{description}: the subgroups may partly reflect {column} rather than connectivity alone; \
+                 check its values (covariates.tsv) before reading the subgroup maps as connectivity differences"
             ),
         }
     }
