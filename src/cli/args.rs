@@ -205,7 +205,7 @@ pub struct AssignArgs {
     #[arg(value_name = "RUN_DIR")]
     pub run: PathBuf,
     /// New participants' input files: a glob pattern or paths (repeat the flag or separate with
-    /// commas), named sub-<label>_..., of the same kind as the run's inputs.
+    /// commas), named `sub-<label>_...`, of the same kind as the run's inputs.
     #[arg(long, value_name = "GLOB", required = true, value_delimiter = ',')]
     pub inputs: Vec<String>,
     /// Output table (TSV, one row per new participant).
