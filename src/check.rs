@@ -15,7 +15,7 @@ use std::time::Instant;
 use rayon::prelude::*;
 
 use crate::config::{GraphRule, RunConfig, Values};
-use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale};
+use crate::features::{self, FeatureOptions, FeatureSpace, Features};
 use crate::read::{self, Cohort, InputKind, InputOptions, ParticipantsTable};
 
 /// How a finding bears on a run.
@@ -643,15 +643,8 @@ fn check_features(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Findin
     };
     let options = FeatureOptions {
         mask: config.mask.clone(),
-        values: match config.values {
-            Values::R => ValueScale::Correlation,
-            Values::Z => ValueScale::FisherZ,
-            Values::Raw => ValueScale::Raw,
-        },
-        transform: match config.transform {
-            crate::config::Transform::None => crate::features::ValueTransform::None,
-            crate::config::Transform::Log1p => crate::features::ValueTransform::Log1p,
-        },
+        values: config.values.into(),
+        transform: config.transform.into(),
         region_names,
     };
     match features::build_features(cohort, &options) {

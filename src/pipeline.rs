@@ -14,9 +14,9 @@ use rayon::prelude::*;
 use serde_json::json;
 
 use crate::communities::{self, CommunityOptions, CommunityResult};
-use crate::config::{ConfigError, RunConfig, Values};
+use crate::config::{ConfigError, RunConfig};
 use crate::error::Error;
-use crate::features::{self, FeatureOptions, FeatureSpace, Features, ValueScale, ValueTransform};
+use crate::features::{self, FeatureOptions, FeatureSpace, Features};
 use crate::maps::{self, MapName, Statistic, WriteError};
 use crate::read::{self, Cohort, InputOptions};
 use crate::report::tables::format_number;
@@ -215,15 +215,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 let _bar = log.progress("reading", cohort.sources.len(), "participants");
                 let options = FeatureOptions {
                     mask: config.mask.clone(),
-                    values: match config.values {
-                        Values::R => ValueScale::Correlation,
-                        Values::Z => ValueScale::FisherZ,
-                        Values::Raw => ValueScale::Raw,
-                    },
-                    transform: match config.transform {
-                        crate::config::Transform::None => ValueTransform::None,
-                        crate::config::Transform::Log1p => ValueTransform::Log1p,
-                    },
+                    values: config.values.into(),
+                    transform: config.transform.into(),
                     region_names,
                 };
                 features::build_features(&cohort, &options)
@@ -342,15 +335,8 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
             &features.space,
             &communities.partition,
             &crate::assign::Preprocessing {
-                values: match config.values {
-                    Values::R => ValueScale::Correlation,
-                    Values::Z => ValueScale::FisherZ,
-                    Values::Raw => ValueScale::Raw,
-                },
-                transform: match config.transform {
-                    crate::config::Transform::None => ValueTransform::None,
-                    crate::config::Transform::Log1p => ValueTransform::Log1p,
-                },
+                values: config.values.into(),
+                transform: config.transform.into(),
                 variable: config.variable.clone(),
             },
         )?;

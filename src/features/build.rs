@@ -42,6 +42,27 @@ pub enum ValueTransform {
     Log1p,
 }
 
+impl From<crate::config::Values> for ValueScale {
+    /// The scale of `--values`.
+    fn from(values: crate::config::Values) -> Self {
+        match values {
+            crate::config::Values::R => ValueScale::Correlation,
+            crate::config::Values::Z => ValueScale::FisherZ,
+            crate::config::Values::Raw => ValueScale::Raw,
+        }
+    }
+}
+
+impl From<crate::config::Transform> for ValueTransform {
+    /// The transform of `--transform`.
+    fn from(transform: crate::config::Transform) -> Self {
+        match transform {
+            crate::config::Transform::None => ValueTransform::None,
+            crate::config::Transform::Log1p => ValueTransform::Log1p,
+        }
+    }
+}
+
 /// Options of the features stage.
 #[derive(Debug, Clone)]
 pub struct FeatureOptions {
