@@ -652,10 +652,10 @@ mod tests {
             (0..columns).map(|f| permutations.iter().map(|order| permuted_f(order, f)).collect()).collect();
         let maxima: Vec<f64> =
             (0..permutations.len()).map(|b| (0..columns).map(|f| values[f][b]).fold(0.0, f64::max)).collect();
-        for f in 0..columns {
-            let observed = values[f][0];
+        for (f, values) in values.iter().enumerate() {
+            let observed = values[0];
             approx::assert_relative_eq!(f64::from(result.t[f]), observed, max_relative = 1e-5);
-            let reached = values[f].iter().filter(|&&v| v >= observed * (1.0 - 1e-9)).count();
+            let reached = values.iter().filter(|&&v| v >= observed * (1.0 - 1e-9)).count();
             let family = maxima.iter().filter(|&&v| v >= observed * (1.0 - 1e-9)).count();
             approx::assert_relative_eq!(
                 result.p_uncorrected[f],
