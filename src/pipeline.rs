@@ -970,6 +970,65 @@ fn write_interaction(
             &dof,
         )?;
     }
+    write_interaction_permutation_maps(config, features, &built, &sidecar, maps_dir)
+}
+
+/// Permutation p and family-wise p maps of the interaction F (`--permutations`): Freedman-Lane
+/// with the model without the group x community terms as nuisance
+/// (`stats::permutation::freedman_lane_f`), seeded by its own stream.
+fn write_interaction_permutation_maps(
+    config: &RunConfig,
+    features: &Features,
+    built: &stats::model::InteractionDesign,
+    sidecar: &serde_json::Value,
+    maps_dir: &Path,
+) -> Result<(), Error> {
+    if config.permutations == 0 {
+        return Ok(());
+    }
+    let (level_a, level_b) = &config.contrast;
+    let seed = crate::seed::derive(config.seed, "permutation-interaction", &[]);
+    let permutations = stats::permutation::random_permutations(built.rows.len(), config.permutations, seed);
+    let Ok(test) = stats::permutation::freedman_lane_f(
+        &features.matrix,
+        &built.rows,
+        &built.design,
+        &built.interaction_columns,
+        &permutations,
+    ) else {
+        return Ok(()); // the F maps were written from the same model, so this does not happen
+    };
+    let extra = json!({
+        "Test": "F of the group x community terms (full linear model against the model without them), permutation inference",
+        "Permutations": test.permutations,
+        "SmallestAttainableP": test.smallest_p,
+        "PermutationMethod": "Freedman-Lane: residuals of the model without the group x community terms permuted, its fitted values added back",
+    });
+    let outputs = [
+        (
+            Statistic::PermutationP,
+            &test.p_uncorrected,
+            "Permutation p of the interaction F: the share of permutations (the observed order included) whose F reaches the observed F",
+        ),
+        (
+            Statistic::FamilyWiseP,
+            &test.p_fwe,
+            "Family-wise error p of the interaction F: the share of permutations whose largest F over all features of the map reaches the observed F",
+        ),
+    ];
+    for (statistic, values, description) in outputs {
+        let values: Vec<f32> = values.iter().map(|&p| p as f32).collect();
+        let name = MapName::builder()
+            .community("all")
+            .contrast(level_a, level_b)
+            .interaction()
+            .build_for(statistic)?;
+        let described = with(
+            &with(sidecar, extra.clone()),
+            json!({"Description": format!("{description}: does {level_a} - {level_b} differ across communities?")}),
+        );
+        maps::write_map(maps_dir, &features.space, &name, statistic, &values, &described, None)?;
+    }
     Ok(())
 }
 

@@ -159,6 +159,35 @@ fn permutation_maps_are_written_and_identical_at_any_thread_count() {
     assert_eq!(sidecar["Permutations"], 200);
     assert_eq!(sidecar["Statistic"], "FWE p");
 
+    // The interaction F gets the same pair of maps (Freedman-Lane against the model without the
+    // group x community terms): identical at 1 and 2 threads, on the (b + 1)/200 grid, FWE >= p.
+    let interaction = "comm-all_contrast-insomniaVsControl_effect-interaction";
+    let read_interaction = |dir: &Path, suffix: &str| -> ndarray::Array2<f32> {
+        ndarray_npy::read_npy(dir.join(format!("{interaction}_{suffix}.npy"))).unwrap()
+    };
+    for suffix in ["pperm", "pfwe"] {
+        assert_eq!(
+            read_interaction(&maps[0], suffix),
+            read_interaction(&maps[1], suffix),
+            "interaction {suffix} differs between 1 and 2 threads"
+        );
+    }
+    let (uncorrected, family) = (read_interaction(&maps[0], "pperm"), read_interaction(&maps[0], "pfwe"));
+    for (&fwe, &p) in family.iter().zip(uncorrected.iter()) {
+        for value in [p, fwe] {
+            let b = f64::from(value) * 200.0 - 1.0;
+            assert!((b - b.round()).abs() < 1e-3 && b > -1e-3, "interaction p {value} off the grid");
+        }
+        assert!(fwe >= p, "interaction p {p}, fwe {fwe}");
+    }
+    let sidecar: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(maps[0].join(format!("{interaction}_pperm.json"))).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(sidecar["Permutations"], 200);
+    assert_eq!(sidecar["Statistic"], "perm p");
+    assert!(sidecar["PermutationMethod"].as_str().unwrap().starts_with("Freedman-Lane"));
+
     let output = strata(&small_cohort_args("never", &["--permutations", "10"]), root);
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(2), "{stderr}");

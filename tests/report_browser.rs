@@ -126,9 +126,10 @@ fn demo_reports_load_cleanly_in_chromium() {
     assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
     // Region matrices: similarity, composition, sweep, co-assignment, network profiles,
     // covariates (age, fd_mean, followup_isi of the demo table), the null distribution, the
-    // subsample ARIs and the contrast matrices.
+    // subsample ARIs, the correlations between the scopes' difference maps and the contrast
+    // matrices.
     let matrices = check_page(&dir.path().join("demo/results-matrices"), "demo-matrices");
-    assert_eq!(matrices, 9, "figures of the matrix report");
+    assert_eq!(matrices, 10, "figures of the matrix report");
     // Seed maps: the five participant-level figures (similarity, composition, sweep,
     // co-assignment, covariates) and one mosaic per scope (the whole cohort and each community
     // the run found).
@@ -138,8 +139,9 @@ fn demo_reports_load_cleanly_in_chromium() {
     )
     .unwrap();
     let communities = summary["community_count"].as_u64().unwrap() as usize;
-    // Plus the null distribution and the subsample ARIs.
-    assert_eq!(seedmaps, 5 + 2 + 1 + communities, "figures of the seed-map report");
+    // Plus the null distribution, the subsample ARIs and the correlations between the scopes'
+    // difference maps.
+    assert_eq!(seedmaps, 5 + 3 + 1 + communities, "figures of the seed-map report");
 }
 
 #[test]

@@ -127,7 +127,7 @@ fn optional_sections_appear_only_with_their_files_and_keys() {
     let out = run(dir.path(), &inputs, "insomnia,control", "results");
     // Every run writes composition.tsv and covariates.tsv: take them away and re-render, so
     // that each optional section is seen absent first.
-    for table in ["composition.tsv", "covariates.tsv"] {
+    for table in ["composition.tsv", "covariates.tsv", "contrast_correlations.tsv"] {
         assert!(out.join(table).is_file(), "{table} is written by every run");
         std::fs::remove_file(out.join(table)).unwrap();
     }
@@ -141,6 +141,7 @@ fn optional_sections_appear_only_with_their_files_and_keys() {
         "table-stability",
         "figure-null",
         "figure-stability",
+        "figure-contrast-correlations",
         "Null test",
         "Stability:",
     ] {
@@ -148,6 +149,12 @@ fn optional_sections_appear_only_with_their_files_and_keys() {
     }
     std::fs::write(out.join("composition.tsv"), "test\tstatistic\tp\nchi-squared\t1.5\t0.47\n").unwrap();
     std::fs::write(out.join("covariates.tsv"), "covariate\ttest\tp\nage\tKruskal-Wallis\t0.31\n").unwrap();
+    // Three scopes, one named with markup (it must stay text) and one pair missing (n/a).
+    std::fs::write(
+        out.join("contrast_correlations.tsv"),
+        "community_a\tcommunity_b\tcorrelation\tfeatures\nall\t1\t0.8134\t90\nall\t<i>9</i>\t-0.5\t90\n",
+    )
+    .unwrap();
     std::fs::write(out.join("outcome.tsv"), "outcome\tstatistic\tp\nfollowup_isi\t2.1\t0.04\n").unwrap();
     let mut stability = String::from("resample\tari\n");
     for resample in 0..40 {
@@ -175,9 +182,21 @@ fn optional_sections_appear_only_with_their_files_and_keys() {
         "Null test (modularity): observed 0.41, p = 0.002: the subgroups are supported by the null test.",
         "Stability: median adjusted Rand index 0.74 between resampled and full partitions (subsamples 40).",
         "Kruskal-Wallis",
+        "id=\"figure-contrast-correlations\"",
+        "Pearson correlation between the insomnia - control difference maps",
+        ">0.81</text>",
+        ">-0.50</text>",
+        ">n/a</text>",
+        "&lt;i&gt;9&lt;/i&gt;",
     ] {
         assert!(page.contains(present), "report lacks {present}");
     }
+    assert!(!page.contains("<i>9</i>"), "a scope name was written as markup");
+    // The diagonal is 1 and the matrix symmetric: the 3 x 3 cells carry 1.00 three times.
+    let figure =
+        page.split("id=\"figure-contrast-correlations\"").nth(1).unwrap().split("</figure>").next().unwrap();
+    assert_eq!(figure.matches(">1.00</text>").count(), 3);
+    assert_eq!(figure.matches(">0.81</text>").count(), 2);
 }
 
 #[test]

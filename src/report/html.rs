@@ -410,6 +410,22 @@ fn build_figures(files: &RunFiles) -> (Vec<Figure>, Vec<String>) {
     if let Some(figure) = covariate_figure(files, &membership) {
         figures.push(figure);
     }
+    if let Some(table) = &files.optional.contrast_correlations {
+        let (level_a, level_b) = contrast_levels(files);
+        match crate::report::run_files::correlation_matrix(table) {
+            Some((scopes, values)) => figures.push(figure(
+                "figure-contrast-correlations",
+                "How much the difference changes between scopes",
+                format!(
+                    "Pearson correlation between the {level_a} - {level_b} difference maps of every pair of scopes (contrast_correlations.tsv): 'all' is the whole cohort, numbers are communities. Red cells: two scopes share the direction of the difference over the features; blue: they oppose; white: unrelated. Colours run from -1 to 1; the value is printed in each cell, n/a where a pair was not computed.",
+                ),
+                charts::correlation_heatmap(&scopes, &values, "correlations between the scopes' difference maps"),
+            )),
+            None => notes.push(
+                "contrast_correlations.tsv has no community_a, community_b and correlation columns or no row; correlation figure left out".into(),
+            ),
+        }
+    }
     if let Some(test) = &files.optional.null_test {
         figures.push(figure(
             "figure-null",

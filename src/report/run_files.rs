@@ -175,6 +175,8 @@ pub struct OptionalResults {
     pub stability_table: Option<ParticipantsTable>,
     /// `subsamples.tsv`: the adjusted Rand index of each resampled partition.
     pub subsamples_table: Option<ParticipantsTable>,
+    /// `contrast_correlations.tsv`: correlation between the scopes' difference maps.
+    pub contrast_correlations: Option<ParticipantsTable>,
     /// `summary.json` `null_test`.
     pub null_test: Option<NullTest>,
     /// `summary.json` `stability`.
@@ -283,6 +285,7 @@ impl RunFiles {
             outcome: read_optional_table(dir, "outcome.tsv", &mut notes),
             stability_table: read_optional_table(dir, "stability.tsv", &mut notes),
             subsamples_table: read_optional_table(dir, "subsamples.tsv", &mut notes),
+            contrast_correlations: read_optional_table(dir, "contrast_correlations.tsv", &mut notes),
             null_test: read_null_test(&summary_json),
             stability: read_stability(&summary_json),
         };
@@ -397,6 +400,43 @@ pub fn read_optional_table(dir: &Path, name: &str, notes: &mut Vec<String>) -> O
             None
         }
     }
+}
+
+/// The square matrix of `contrast_correlations.tsv` (one row per pair of scopes: columns
+/// `community_a`, `community_b`, `correlation`): the scopes with `all` first, then communities
+/// by number (other names after them, by name), and the k x k values row-major, 1 on the
+/// diagonal and NaN for a pair the table lacks or whose value is not a number. `None` when a
+/// column is missing or the table has no row.
+pub fn correlation_matrix(table: &ParticipantsTable) -> Option<(Vec<String>, Vec<f64>)> {
+    let first = table.column("community_a")?;
+    let second = table.column("community_b")?;
+    let values = table.column("correlation")?;
+    if first.is_empty() {
+        return None;
+    }
+    let mut scopes: Vec<String> = first.iter().chain(&second).map(|s| s.trim().to_string()).collect();
+    let key = |scope: &String| match (scope.as_str(), scope.parse::<u64>()) {
+        ("all", _) => (0, 0, String::new()),
+        (_, Ok(number)) => (1, number, String::new()),
+        _ => (2, 0, scope.clone()),
+    };
+    scopes.sort_by_key(key);
+    scopes.dedup();
+    let k = scopes.len();
+    let mut matrix = vec![f64::NAN; k * k];
+    for i in 0..k {
+        matrix[i * k + i] = 1.0;
+    }
+    let position = |scope: &str| scopes.iter().position(|s| s == scope.trim());
+    for ((a, b), value) in first.iter().zip(&second).zip(&values) {
+        let (Some(i), Some(j)) = (position(a), position(b)) else { continue };
+        let value = value.trim().parse::<f64>().unwrap_or(f64::NAN);
+        if i != j {
+            matrix[i * k + j] = value;
+            matrix[j * k + i] = value;
+        }
+    }
+    Some((scopes, matrix))
 }
 
 /// The null test from `summary.json`: key `null_test` holding `observed` (number), `p_value`
@@ -560,6 +600,26 @@ fn list_maps(dir: &Path) -> Vec<MapFile> {
 mod tests {
     use super::*;
     use serde_json::json;
+
+    #[test]
+    fn correlation_matrix_puts_all_first_and_fills_both_halves() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("contrast_correlations.tsv");
+        std::fs::write(
+            &path,
+            "community_a\tcommunity_b\tcorrelation\tfeatures\n10\t2\t-0.25\t90\nall\t2\t0.5\t90\nall\t10\tn/a\t0\n",
+        )
+        .unwrap();
+        let table = crate::read::read_table(&path).unwrap();
+        let (scopes, matrix) = correlation_matrix(&table).unwrap();
+        assert_eq!(scopes, ["all", "2", "10"]);
+        assert_eq!(matrix[0], 1.0);
+        assert_eq!((matrix[1], matrix[3]), (0.5, 0.5));
+        assert_eq!((matrix[5], matrix[7]), (-0.25, -0.25));
+        assert!(matrix[2].is_nan() && matrix[6].is_nan());
+        std::fs::write(&path, "community_a\tcorrelation\nall\t1\n").unwrap();
+        assert!(correlation_matrix(&crate::read::read_table(&path).unwrap()).is_none());
+    }
 
     #[test]
     fn null_test_in_each_quantile_form() {

@@ -31,10 +31,16 @@ pub const PERMUTATION_CHUNK: usize = 256;
 /// statistic up to f64 rounding (about 1e-15), which must count (chosen here).
 pub const STATISTIC_TIE: f64 = 1e-10;
 
+/// A residual sum of squares at or below this share of the nuisance residuals' sum of squares
+/// counts as an exact fit (f64 rounding leaves about 1e-15); a permuted F there is infinite
+/// (chosen here).
+pub const PERFECT_FIT: f64 = 1e-12;
+
 /// Result of a permutation test of one design column, per feature.
 #[derive(Debug, Clone, PartialEq)]
 pub struct PermutationTest {
-    /// The observed t of the tested coefficient.
+    /// The observed t of the tested coefficient ([`freedman_lane`]), or the observed F of the
+    /// tested columns ([`freedman_lane_f`]).
     pub t: Vec<f32>,
     /// Per-feature permutation p: the share of permutations (the identity included) whose |t|
     /// reaches the observed |t|.
@@ -117,6 +123,114 @@ pub fn freedman_lane(
     if column >= k {
         return Err(invalid(format!("column {column} is outside the design's {k} columns")));
     }
+    check_inputs(features, rows, permutations)?;
+    let full = factorise(design, n)?;
+    let nuisance = nuisance_factors(design, &[column], n)?;
+    let weights: Vec<f64> = (0..k).map(|j| full.r_inverse[column * k + j]).collect();
+    let variance_factor = full.unscaled_covariance[column * k + column];
+    let dof = (n - k) as f64;
+    let statistic = |u: &[f64], total_ss: f64| {
+        let estimate: f64 = weights.iter().zip(u).map(|(w, u)| w * u).sum();
+        let explained: f64 = u.iter().map(|u| u * u).sum();
+        let rss = (total_ss - explained).max(0.0);
+        let se = (rss / dof * variance_factor).sqrt();
+        if se > 0.0 {
+            estimate / se
+        } else {
+            f64::NAN
+        }
+    };
+    Ok(run_permutations(features, rows, nuisance.as_ref(), &[&full], permutations, &statistic))
+}
+
+/// Freedman-Lane permutation test of several design columns at once by the F of the full model
+/// against the reduced model without them, with per-feature and family-wise (max F) p values.
+///
+/// With Z the design without the `tested` columns and R_z = (I - H_z) Y, each permutation P
+/// gives Y* = P R_z + H_z Y. H_z Y lies in the span of both models, so the F of Y* equals the F of
+/// P R_z, computed from U_x = Q_x' P R_z and U_z = Q_z' P R_z (thin Q of the full and reduced
+/// designs, each factorised once):
+///
+/// ```text
+/// RSS_full* = ||R_z||^2 - ||U_x||^2,   RSS_reduced* = ||R_z||^2 - ||U_z||^2
+/// F* = ((RSS_reduced* - RSS_full*) / q) / (RSS_full* / (n - k))      (q tested columns, k in all)
+/// p_f     = #{b : F*_b,f >= F_f} / B
+/// p_fwe_f = #{b : max_g F*_b,g >= F_f} / B
+/// ```
+///
+/// The observed F (the identity permutation) is the usual nested-model F. A permutation whose
+/// data the full model fits exactly (RSS_full* <= [`PERFECT_FIT`] ||R_z||^2) has an infinite
+/// F*, which reaches every observed F. Features with no residual variation get NaN and do not
+/// enter the maxima.
+///
+/// # Arguments
+/// * `features` - the N x F participant-by-feature matrix.
+/// * `rows` - the participant rows of the model; design row i belongs to `rows[i]`.
+/// * `design` - n x k full design with n = `rows.len()`.
+/// * `tested` - the design columns dropped in the reduced model (at least one, distinct).
+/// * `permutations` - orderings of 0..n; the first must be the identity (the observed data).
+///
+/// # Returns
+/// A [`PermutationTest`] whose `t` field holds the observed F.
+///
+/// # Errors
+/// As [`freedman_lane`]; [`StatsError::InvalidInput`] when `tested` is empty, repeats a column
+/// or names one outside the design.
+///
+/// # Complexity
+/// O(B (2k - q) n F) time; memory and parallelism as [`freedman_lane`].
+///
+/// # References
+/// Freedman & Lane 1983, J Bus Econ Stat 1:292-298; Nichols & Holmes 2002, Hum Brain Mapp
+/// 15:1-25; Winkler et al. 2014, NeuroImage 92:381-397 (Freedman-Lane for F statistics).
+pub fn freedman_lane_f(
+    features: &FeatureMatrix,
+    rows: &[usize],
+    design: &Design,
+    tested: &[usize],
+    permutations: &[Vec<usize>],
+) -> Result<PermutationTest, StatsError> {
+    let n = rows.len();
+    let k = design.column_count();
+    let invalid = |message: String| StatsError::InvalidInput { test: "permutation test".into(), message };
+    let mut sorted_tested = tested.to_vec();
+    sorted_tested.sort_unstable();
+    sorted_tested.dedup();
+    if tested.is_empty() || sorted_tested.len() != tested.len() || sorted_tested.iter().any(|&c| c >= k) {
+        return Err(invalid(format!(
+            "the tested columns {tested:?} must be distinct, at least one, and inside the design's {k} columns"
+        )));
+    }
+    check_inputs(features, rows, permutations)?;
+    let full = factorise(design, n)?;
+    let nuisance = nuisance_factors(design, tested, n)?;
+    let q = tested.len() as f64;
+    let dof = (n - k) as f64;
+    let statistic = |u: &[f64], total_ss: f64| {
+        let explained_full: f64 = u[..k].iter().map(|u| u * u).sum();
+        let explained_reduced: f64 = u[k..].iter().map(|u| u * u).sum();
+        let rss = (total_ss - explained_full).max(0.0);
+        let numerator = (explained_full - explained_reduced).max(0.0) / q;
+        if rss > PERFECT_FIT * total_ss {
+            numerator / (rss / dof)
+        } else if numerator > PERFECT_FIT * total_ss {
+            f64::INFINITY // the permuted data fit the full model exactly but not the reduced one
+        } else {
+            f64::NAN
+        }
+    };
+    let stacked: Vec<&Factors> = std::iter::once(&full).chain(nuisance.as_ref()).collect();
+    Ok(run_permutations(features, rows, nuisance.as_ref(), &stacked, permutations, &statistic))
+}
+
+/// The permutation, ordering and row checks shared by both tests.
+fn check_inputs(
+    features: &FeatureMatrix,
+    rows: &[usize],
+    permutations: &[Vec<usize>],
+) -> Result<(), StatsError> {
+    let n = rows.len();
+    let invalid = |message: String| StatsError::InvalidInput { test: "permutation test".into(), message };
     for (index, permutation) in permutations.iter().enumerate() {
         let mut sorted = permutation.clone();
         sorted.sort_unstable();
@@ -135,35 +249,51 @@ pub fn freedman_lane(
             participant_count: features.participant_count(),
         });
     }
-    let full = factorise(design, n)?;
-    let nuisance_design = Design {
-        columns: design
-            .columns
-            .iter()
-            .enumerate()
-            .filter(|(j, _)| *j != column)
-            .map(|(_, c)| c.clone())
-            .collect(),
-        values: (0..n)
-            .flat_map(|i| (0..k).filter(|&j| j != column).map(move |j| design.values[i * k + j]))
-            .collect(),
-    };
-    let nuisance =
-        if nuisance_design.columns.is_empty() { None } else { Some(factorise(&nuisance_design, n)?) };
+    Ok(())
+}
 
-    // Permuted Q' for every permutation: A_b[j, pi(i)] = Q[i, j], stacked (B k) x n.
+/// The factorisation of the design without the `dropped` columns (`None` when nothing is left).
+fn nuisance_factors(design: &Design, dropped: &[usize], n: usize) -> Result<Option<Factors>, StatsError> {
+    let k = design.column_count();
+    let kept: Vec<usize> = (0..k).filter(|j| !dropped.contains(j)).collect();
+    if kept.is_empty() {
+        return Ok(None);
+    }
+    let reduced = Design {
+        columns: kept.iter().map(|&j| design.columns[j].clone()).collect(),
+        values: (0..n).flat_map(|i| kept.iter().map(move |&j| design.values[i * k + j])).collect(),
+    };
+    Ok(Some(factorise(&reduced, n)?))
+}
+
+/// Permute the nuisance residuals, evaluate `statistic` (from the stacked permuted Q'R_z and
+/// ||R_z||^2) for every permutation and feature, and count per-feature and max-statistic
+/// exceedances of the observed |statistic|.
+fn run_permutations(
+    features: &FeatureMatrix,
+    rows: &[usize],
+    nuisance: Option<&Factors>,
+    stacked: &[&Factors],
+    permutations: &[Vec<usize>],
+    statistic: &(dyn Fn(&[f64], f64) -> f64 + Sync),
+) -> PermutationTest {
+    let n = rows.len();
+    // Permuted Q' for every permutation, the factors' Q side by side:
+    // A_b[j, pi(i)] = Q[i, j], stacked (B k) x n with k the total column count.
+    let k: usize = stacked.iter().map(|f| f.columns).sum();
     let count = permutations.len();
     let mut permuted_q = vec![0.0f64; count * k * n];
     for (b, permutation) in permutations.iter().enumerate() {
         for (i, &target) in permutation.iter().enumerate() {
-            for j in 0..k {
-                permuted_q[(b * k + j) * n + target] = full.q[i * k + j];
+            let mut j = 0;
+            for factors in stacked {
+                for c in 0..factors.columns {
+                    permuted_q[(b * k + j) * n + target] = factors.q[i * factors.columns + c];
+                    j += 1;
+                }
             }
         }
     }
-    let weights: Vec<f64> = (0..k).map(|j| full.r_inverse[column * k + j]).collect();
-    let variance_factor = full.unscaled_covariance[column * k + column];
-    let dof = (n - k) as f64;
 
     let data = features.row_major();
     let width = features.feature_count();
@@ -172,8 +302,8 @@ pub fn freedman_lane(
         .map(|block| {
             let start = block * PERMUTATION_FEATURE_BLOCK;
             let len = PERMUTATION_FEATURE_BLOCK.min(width - start);
-            let residuals = nuisance_residuals(nuisance.as_ref(), data, width, rows, start, len);
-            permute_block(&residuals, n, len, &permuted_q, count, k, &weights, variance_factor, dof)
+            let residuals = nuisance_residuals(nuisance, data, width, rows, start, len);
+            permute_block(&residuals, n, len, &permuted_q, count, k, statistic)
         })
         .collect();
 
@@ -184,13 +314,13 @@ pub fn freedman_lane(
         t.extend(block.observed);
         reached.extend(block.reached);
         for (maximum, candidate) in max_statistic.iter_mut().zip(block.maxima) {
-            if candidate.is_finite() && (maximum.is_nan() || candidate > *maximum) {
+            if !candidate.is_nan() && (maximum.is_nan() || candidate > *maximum) {
                 *maximum = candidate;
             }
         }
     }
     let total = count as f64;
-    let mut sorted_maxima: Vec<f64> = max_statistic.iter().copied().filter(|v| v.is_finite()).collect();
+    let mut sorted_maxima: Vec<f64> = max_statistic.iter().copied().filter(|v| !v.is_nan()).collect();
     sorted_maxima.sort_by(f64::total_cmp);
     let p_uncorrected: Vec<f64> = t
         .iter()
@@ -208,14 +338,14 @@ pub fn freedman_lane(
             (sorted_maxima.len() - below) as f64 / total
         })
         .collect();
-    Ok(PermutationTest {
+    PermutationTest {
         t: t.iter().map(|&t| t as f32).collect(),
         p_uncorrected,
         p_fwe,
         permutations: count,
         smallest_p: 1.0 / total,
         max_statistic,
-    })
+    }
 }
 
 /// What one block of features contributes.
@@ -271,7 +401,6 @@ fn nuisance_residuals(
     residuals
 }
 
-#[allow(clippy::too_many_arguments)]
 fn permute_block(
     residuals: &[f64],
     n: usize,
@@ -279,9 +408,7 @@ fn permute_block(
     permuted_q: &[f64],
     count: usize,
     k: usize,
-    weights: &[f64],
-    variance_factor: f64,
-    dof: f64,
+    statistic: &(dyn Fn(&[f64], f64) -> f64 + Sync),
 ) -> BlockResult {
     let mut total_ss = vec![0.0f64; len];
     for i in 0..n {
@@ -295,6 +422,7 @@ fn permute_block(
     let mut reached = vec![0usize; len];
     let mut maxima = vec![f64::NAN; count];
     let mut product = vec![0.0f64; PERMUTATION_CHUNK.min(count) * k * len];
+    let mut column = vec![0.0f64; k];
     for chunk_start in (0..count).step_by(PERMUTATION_CHUNK) {
         let chunk = PERMUTATION_CHUNK.min(count - chunk_start);
         let lhs = MatRef::from_row_major_slice(
@@ -315,16 +443,10 @@ fn permute_block(
             let permutation = chunk_start + b;
             let mut block_max = f64::NAN;
             for f in 0..len {
-                let mut estimate = 0.0;
-                let mut explained = 0.0;
-                for j in 0..k {
-                    let u = output[(b * k + j) * len + f];
-                    estimate += weights[j] * u;
-                    explained += u * u;
+                for (j, value) in column.iter_mut().enumerate() {
+                    *value = output[(b * k + j) * len + f];
                 }
-                let rss = (total_ss[f] - explained).max(0.0);
-                let se = (rss / dof * variance_factor).sqrt();
-                let t = if se > 0.0 { estimate / se } else { f64::NAN };
+                let t = statistic(&column, total_ss[f]);
                 if permutation == 0 {
                     observed[f] = t;
                     observed_abs[f] = t.abs() * (1.0 - STATISTIC_TIE);
@@ -333,7 +455,7 @@ fn permute_block(
                 if magnitude >= observed_abs[f] {
                     reached[f] += 1;
                 }
-                if magnitude.is_finite() && (block_max.is_nan() || magnitude > block_max) {
+                if !magnitude.is_nan() && (block_max.is_nan() || magnitude > block_max) {
                     block_max = magnitude;
                 }
             }
@@ -461,6 +583,133 @@ mod tests {
         assert_eq!(
             error.to_string(),
             "permutation test: the first permutation must be the identity (the observed data)"
+        );
+    }
+    /// Balanced 2 x 2 design (group x community, `per_cell` rows per cell, cells in row order
+    /// a1 b1 a2 b2 repeated): intercept, group, community, group x community.
+    fn two_by_two_design(per_cell: usize) -> (Design, Vec<(usize, usize)>) {
+        let cells: Vec<(usize, usize)> = (0..4 * per_cell).map(|i| ((i % 4) / 2, i % 2)).collect();
+        let design = Design {
+            columns: vec!["intercept".into(), "group".into(), "community".into(), "interaction".into()],
+            values: cells.iter().flat_map(|&(g, c)| [1.0, g as f64, c as f64, (g * c) as f64]).collect(),
+        };
+        (design, cells)
+    }
+
+    /// Textbook balanced two-way ANOVA (Montgomery, Design and Analysis of Experiments, ch. 5):
+    /// additive fit y_ij = mean_i. + mean_.j - mean.., interaction SS = m sum (cell mean - additive)^2,
+    /// error SS = within-cell SS, F = SS_AB / (SS_E / (n - 4)).
+    fn textbook_interaction_f(y: &[f64], cells: &[(usize, usize)]) -> (f64, Vec<f64>) {
+        let n = y.len();
+        let m = (n / 4) as f64;
+        let mut cell = [[0.0; 2]; 2];
+        for (&(g, c), &v) in cells.iter().zip(y) {
+            cell[g][c] += v / m;
+        }
+        let grand = (cell[0][0] + cell[0][1] + cell[1][0] + cell[1][1]) / 4.0;
+        let row = |g: usize| (cell[g][0] + cell[g][1]) / 2.0;
+        let col = |c: usize| (cell[0][c] + cell[1][c]) / 2.0;
+        let additive: Vec<f64> = cells.iter().map(|&(g, c)| row(g) + col(c) - grand).collect();
+        let ss_ab: f64 = (0..2)
+            .flat_map(|g| (0..2).map(move |c| (g, c)))
+            .map(|(g, c)| m * (cell[g][c] - (row(g) + col(c) - grand)).powi(2))
+            .sum();
+        let ss_e: f64 = cells.iter().zip(y).map(|(&(g, c), &v)| (v - cell[g][c]).powi(2)).sum();
+        (ss_ab / (ss_e / (n as f64 - 4.0)), additive)
+    }
+
+    #[test]
+    fn interaction_f_exact_over_all_permutations_matches_textbook_count() {
+        // 2 per cell, n = 8, all 8! = 40,320 orderings of the reduced-model residuals. Brute
+        // force: Y* = P R_z + fitted (additive fit by the textbook formula), F by the textbook
+        // two-way formula; p = count / 40,320, independent of the kernel. The values repeat, so
+        // some orderings fit the full model exactly (infinite F, counted as reaching).
+        let (design, cells) = two_by_two_design(2);
+        let n = 8;
+        let columns = 3;
+        let raw: Vec<f32> = (0..n * columns)
+            .map(|i| {
+                ((i * 29 % 13) as f32) * 0.4
+                    + if i % columns == 0 && (i / columns) % 4 == 3 { 3.0 } else { 0.0 }
+            })
+            .collect();
+        let features = FeatureMatrix { values: Array2::from_shape_vec((n, columns), raw.clone()).unwrap() };
+        let permutations = all_permutations(n);
+        let rows: Vec<usize> = (0..n).collect();
+        let result = freedman_lane_f(&features, &rows, &design, &[3], &permutations).unwrap();
+        let permuted_f = |order: &[usize], f: usize| {
+            let y: Vec<f64> = (0..n).map(|i| f64::from(raw[i * columns + f])).collect();
+            let (_, fitted) = textbook_interaction_f(&y, &cells);
+            let residual: Vec<f64> = y.iter().zip(&fitted).map(|(y, h)| y - h).collect();
+            // Row i takes the residual of row order[i] (the kernel's P).
+            let mut star = fitted.clone();
+            for (i, &source) in order.iter().enumerate() {
+                star[i] += residual[source];
+            }
+            textbook_interaction_f(&star, &cells).0
+        };
+        let values: Vec<Vec<f64>> =
+            (0..columns).map(|f| permutations.iter().map(|order| permuted_f(order, f)).collect()).collect();
+        let maxima: Vec<f64> =
+            (0..permutations.len()).map(|b| (0..columns).map(|f| values[f][b]).fold(0.0, f64::max)).collect();
+        for (f, values) in values.iter().enumerate() {
+            let observed = values[0];
+            approx::assert_relative_eq!(f64::from(result.t[f]), observed, max_relative = 1e-5);
+            let reached = values.iter().filter(|&&v| v >= observed * (1.0 - 1e-9)).count();
+            let family = maxima.iter().filter(|&&v| v >= observed * (1.0 - 1e-9)).count();
+            approx::assert_relative_eq!(
+                result.p_uncorrected[f],
+                reached as f64 / 40320.0,
+                max_relative = 1e-12
+            );
+            approx::assert_relative_eq!(result.p_fwe[f], family as f64 / 40320.0, max_relative = 1e-12);
+            assert!(result.p_fwe[f] >= result.p_uncorrected[f]);
+        }
+        // The observed F is the nested-model F of the linear model (checked against statsmodels'
+        // anova_lm in tests/reference_glm.rs).
+        let model = crate::stats::fit_linear_model(&features, &rows, &design).unwrap();
+        let nested = crate::stats::contrast_f(&model, &[vec![0.0, 0.0, 0.0, 1.0]]).unwrap();
+        for f in 0..columns {
+            approx::assert_relative_eq!(result.t[f], nested.f[f], max_relative = 1e-4);
+        }
+    }
+
+    #[test]
+    fn interaction_p_on_the_grid_and_thread_count_free() {
+        // 3 per cell plus a covariate, 2,100 features (3 blocks), 199 random permutations:
+        // every p is (b + 1) / 200 for a whole b, FWE p >= per-feature p, and 1 and 2 threads agree
+        // bitwise.
+        let (mut design, _) = two_by_two_design(3);
+        let n = 12;
+        let covariate: Vec<f64> = (0..n).map(|i| ((i * 7) % 5) as f64).collect();
+        design.columns.push("age".into());
+        design.values = (0..n)
+            .flat_map(|i| design.values[i * 4..i * 4 + 4].iter().copied().chain([covariate[i]]))
+            .collect();
+        let width = 2100;
+        let values: Vec<f32> = (0..n * width).map(|v| ((v * 7919) % 1009) as f32 * 0.01).collect();
+        let features = FeatureMatrix { values: Array2::from_shape_vec((n, width), values).unwrap() };
+        let rows: Vec<usize> = (0..n).collect();
+        let permutations = random_permutations(n, 199, 11);
+        let run = |threads: usize| {
+            let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap();
+            pool.install(|| freedman_lane_f(&features, &rows, &design, &[3], &permutations).unwrap())
+        };
+        let one = run(1);
+        assert_eq!(format!("{one:?}"), format!("{:?}", run(2)));
+        assert_eq!(one.permutations, 200);
+        approx::assert_relative_eq!(one.smallest_p, 1.0 / 200.0, max_relative = 1e-12);
+        for (&p, &fwe) in one.p_uncorrected.iter().zip(&one.p_fwe) {
+            for value in [p, fwe] {
+                let b = value * 200.0 - 1.0;
+                assert!((b - b.round()).abs() < 1e-9 && b >= -1e-9, "p {value} is off the grid");
+            }
+            assert!(fwe >= p, "FWE p {fwe} below per-feature p {p}");
+        }
+        let error = freedman_lane_f(&features, &rows, &design, &[], &permutations).unwrap_err();
+        assert_eq!(
+            error.to_string(),
+            "permutation test: the tested columns [] must be distinct, at least one, and inside the design's 5 columns"
         );
     }
 }

@@ -270,6 +270,52 @@ pub fn histogram(values: &[f64], x_title: &str, marker: Option<(f64, &str)>, lab
     svg.finish(label)
 }
 
+/// Largest side of the correlation heat map's square, in user units.
+const HEATMAP_SIDE: f64 = 420.0;
+/// Largest cell of the correlation heat map (few scopes stay compact).
+const HEATMAP_CELL: f64 = 64.0;
+/// Cells at least this large carry their value as text.
+const HEATMAP_LABELLED_CELL: f64 = 22.0;
+/// Cells whose |r| reaches this get white text (the diverging map is dark there).
+const HEATMAP_DARK: f64 = 0.6;
+
+/// A k x k heat map of correlations (`values` row-major, NaN shown grey as `n/a`) with the
+/// scopes along both axes, on the diverging colour map from -1 to 1 with a colour bar, and the
+/// value printed in each cell (two decimals) when the cells are large enough.
+pub fn correlation_heatmap(scopes: &[String], values: &[f64], label: &str) -> String {
+    let k = scopes.len().max(1);
+    let cell = (HEATMAP_SIDE / k as f64).min(HEATMAP_CELL);
+    let side = cell * k as f64;
+    let (left, top) = (90.0, 20.0);
+    let mut svg = Svg::new(left + side + 110.0, top + side + 90.0);
+    let range = (-1.0, 1.0);
+    for i in 0..scopes.len() {
+        for j in 0..scopes.len() {
+            let value = values.get(i * scopes.len() + j).copied().unwrap_or(f64::NAN);
+            let colour =
+                if value.is_finite() { ColourMap::BlueRed.value(value, range) } else { [200, 200, 200] };
+            let (x, y) = (left + j as f64 * cell, top + i as f64 * cell);
+            svg.rect(x, y, cell, cell, &hex(colour), Some("#fff"));
+            if cell >= HEATMAP_LABELLED_CELL {
+                let text = if value.is_finite() { format!("{value:.2}") } else { "n/a".into() };
+                let ink = if value.abs() >= HEATMAP_DARK { "#fff" } else { INK };
+                let size = TICK_FONT.min(cell / 3.0);
+                svg.cell_text((x + cell / 2.0, y + cell / 2.0 + size / 3.0), &text, size, ink);
+            }
+        }
+    }
+    for (index, scope) in scopes.iter().enumerate() {
+        let middle = index as f64 * cell + cell / 2.0;
+        svg.text((left - 6.0, top + middle + 4.0), scope, TICK_FONT, Anchor::End, 0.0);
+        svg.text((left + middle + 4.0, top + side + 8.0), scope, TICK_FONT, Anchor::End, -45.0);
+    }
+    svg.rect(left, top, side, side, "none", Some(INK));
+    svg.text((18.0, top + side / 2.0), "scope", LABEL_FONT, Anchor::Middle, -90.0);
+    svg.text((left + side / 2.0, top + side + 70.0), "scope", LABEL_FONT, Anchor::Middle, 0.0);
+    svg.colour_bar(left + side + 30.0, top + 20.0, side.clamp(100.0, 200.0), ColourMap::BlueRed, range, "r");
+    svg.finish(label)
+}
+
 /// A figure with this id, title, caption and picture.
 pub fn figure(id: &str, title: &str, caption: String, svg: String) -> Figure {
     Figure { id: id.to_string(), title: title.to_string(), caption, svg }

@@ -169,6 +169,18 @@ impl Svg {
         );
     }
 
+    /// Text (escaped) centred on a point in a given fill colour, for values printed on cells.
+    pub fn cell_text(&mut self, at: (f64, f64), content: &str, size: f64, fill: &str) {
+        let _ = write!(
+            self.body,
+            r#"<text x="{}" y="{}" font-size="{}" text-anchor="middle" fill="{fill}">{}</text>"#,
+            num(at.0),
+            num(at.1),
+            num(size),
+            escape(content)
+        );
+    }
+
     /// Bold text (escaped), for panel titles.
     pub fn title(&mut self, at: (f64, f64), content: &str, anchor: Anchor) {
         let _ = write!(
