@@ -15,11 +15,15 @@
 //!   [`features::FeatureSpace`] that maps a feature vector back to the user's format.
 //! * [`similarity`]: participant-by-participant Pearson similarity through one blocked matrix product.
 //! * [`graph`]: proportional-density participant graphs in compressed sparse rows.
-//! * [`communities`]: Louvain modularity optimisation and the consensus across densities.
-//! * [`validation`]: partition agreement (adjusted Rand index, NMI, variation of information).
-//! * [`stats`]: per-community and whole-cohort group comparisons (Welch t, Hedges g, BH q).
+//! * [`communities`]: Infomap, Leiden and Louvain, and the consensus across the sweep.
+//! * [`validation`]: partition agreement (adjusted Rand index, NMI, variation of information),
+//!   the rotation null test of one homogeneous population, and resampling stability.
+//! * [`stats`]: per-community and whole-cohort group comparisons (Welch t, linear models,
+//!   permutations, interaction F, composition and covariate balance).
 //! * [`maps`]: statistic vectors to files through the feature space; output naming.
-//! * [`report`]: provenance JSON and the TSV tables of a run.
+//! * [`report`]: provenance JSON, the TSV tables, the run summary in words and the HTML report.
+//! * [`assign`] and [`power`]: placing new participants into a run's communities, and planning a
+//!   study by simulation.
 //! * [`pipeline`]: the one place that runs the stages in order.
 //!
 //! strata is research software. Subgroup assignments and maps are not diagnoses and are not for
