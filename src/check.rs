@@ -181,7 +181,13 @@ pub fn estimate_seconds(
     let similarity = 2.0 * n * n * features as f64 / SIMILARITY_FLOPS;
     let communities = edges * config.trials as f64 * SECONDS_PER_EDGE_TRIAL;
     let compare = n * features as f64 * SECONDS_PER_COMPARED_VALUE;
-    read + similarity + communities + compare
+    // Every null cohort repeats the whole detection; a subsample of a share s of the
+    // participants keeps about s^2 of the edges (docs/performance.md: 3.9 s per null cohort and
+    // 2.6 s per 80% subsample for a 4.3 s detection at N = 1,000).
+    let fraction = config.subsample_fraction;
+    let validation =
+        communities * (config.null_draws as f64 + config.subsamples as f64 * fraction * fraction);
+    read + similarity + communities + compare + validation
 }
 
 fn human_bytes(bytes: u64) -> String {
@@ -342,11 +348,14 @@ pub fn check(config: &RunConfig) -> CheckReport {
                     "run-time",
                     format!(
                         "about {} on a 2-core machine (rough: reading, similarity, {} graphs x {} trials, \
-                         comparisons, at the rates measured in docs/performance.md; this check read the \
-                         inputs in {read_seconds:.1} s)",
+                         {} null cohorts and {} subsamples that repeat the detection, comparisons, at the \
+                         rates measured in docs/performance.md; this check read the inputs in \
+                         {read_seconds:.1} s)",
                         seconds_text(estimate),
                         config.levels().len(),
-                        config.trials
+                        config.trials,
+                        config.null_draws,
+                        config.subsamples
                     ),
                 ));
             }
@@ -747,5 +756,36 @@ fn check_output(config: &RunConfig, findings: &mut Vec<Finding>) {
         };
         findings
             .push(Finding::ok(NAME, format!("{}: will be created in {}", out.display(), parent.display())));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_run_time_estimate_counts_null_cohorts_and_subsamples() {
+        // 1,000 participants, 55,278 features (333-region matrices), default sweep: each null
+        // cohort adds one detection and each 80% subsample 0.64 of one (the estimate's model).
+        let base = RunConfig {
+            null_draws: 0,
+            subsamples: 0,
+            ..RunConfig::with_defaults(
+                vec!["m/*".into()],
+                "p.tsv".into(),
+                "diagnosis",
+                ("insomnia", "control"),
+                "out".into(),
+            )
+        };
+        let plain = estimate_seconds(&base, 1000, 333 * 333, 55_278);
+        let pairs = 1000.0 * 999.0 / 2.0;
+        let detection = base.densities.iter().map(|d| d * pairs).sum::<f64>()
+            * base.trials as f64
+            * SECONDS_PER_EDGE_TRIAL;
+        let validated = RunConfig { null_draws: 100, subsamples: 50, ..base.clone() };
+        let with = estimate_seconds(&validated, 1000, 333 * 333, 55_278);
+        let expected = detection * (100.0 + 50.0 * 0.8 * 0.8);
+        assert!((with - plain - expected).abs() < 1e-9 * expected, "{with} - {plain} vs {expected}");
     }
 }
