@@ -198,18 +198,7 @@ pub fn null_distribution(test: &NullTest, label: &str) -> String {
         let counts = bin(&test.values, x.domain, 30);
         let y = frame.y((0.0, counts.iter().copied().max().unwrap_or(1).max(1) as f64 * 1.08));
         frame.axes(&mut svg, x, y, &statistic, "null draws");
-        let width = (x.domain.1 - x.domain.0) / counts.len() as f64;
-        for (index, &count) in counts.iter().enumerate() {
-            let from = x.domain.0 + index as f64 * width;
-            svg.rect(
-                x.at(from),
-                y.at(count as f64),
-                x.at(from + width) - x.at(from),
-                y.at(0.0) - y.at(count as f64),
-                "#9ec3e6",
-                Some("#fff"),
-            );
-        }
+        bars(&mut svg, x, y, &counts);
     } else {
         let y = frame.y((0.0, 1.0));
         frame.axes(&mut svg, x, y, &statistic, "cumulative probability");
@@ -232,6 +221,22 @@ pub fn null_distribution(test: &NullTest, label: &str) -> String {
     svg.finish(label)
 }
 
+/// The bars of a histogram: `counts` in equal bins over the x scale's domain.
+fn bars(svg: &mut Svg, x: super::svg::Scale, y: super::svg::Scale, counts: &[usize]) {
+    let width = (x.domain.1 - x.domain.0) / counts.len() as f64;
+    for (index, &count) in counts.iter().enumerate() {
+        let from = x.domain.0 + index as f64 * width;
+        svg.rect(
+            x.at(from),
+            y.at(count as f64),
+            x.at(from + width) - x.at(from),
+            y.at(0.0) - y.at(count as f64),
+            "#9ec3e6",
+            Some("#fff"),
+        );
+    }
+}
+
 /// Counts of `values` in `bins` equal bins over `domain`.
 fn bin(values: &[f64], domain: (f64, f64), bins: usize) -> Vec<usize> {
     let mut counts = vec![0usize; bins];
@@ -251,18 +256,7 @@ pub fn histogram(values: &[f64], x_title: &str, marker: Option<(f64, &str)>, lab
     let counts = bin(values, x.domain, 25);
     let y = frame.y((0.0, counts.iter().copied().max().unwrap_or(1).max(1) as f64 * 1.08));
     frame.axes(&mut svg, x, y, x_title, "count");
-    let width = (x.domain.1 - x.domain.0) / counts.len() as f64;
-    for (index, &count) in counts.iter().enumerate() {
-        let from = x.domain.0 + index as f64 * width;
-        svg.rect(
-            x.at(from),
-            y.at(count as f64),
-            x.at(from + width) - x.at(from),
-            y.at(0.0) - y.at(count as f64),
-            "#9ec3e6",
-            Some("#fff"),
-        );
-    }
+    bars(&mut svg, x, y, &counts);
     if let Some((value, text)) = marker {
         svg.line((x.at(value), frame.top), (x.at(value), frame.top + frame.height), "#c0392b", 2.0);
         svg.text((x.at(value) + 4.0, frame.top + 12.0), text, TICK_FONT, Anchor::Start, 0.0);
