@@ -389,6 +389,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         ..summary
     };
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
+    // Nothing below needs the feature matrix, the similarity matrix or the communities (the
+    // report reads the files just written): free them so the report's buffers do not add to
+    // the run's peak memory.
+    drop((features, similarity, communities));
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
         command: std::env::args().collect(),

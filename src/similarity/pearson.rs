@@ -32,6 +32,18 @@ pub const MAX_TILE: usize = 256;
 /// See [`MAX_TILE`].
 pub const MIN_TILE: usize = 64;
 
+/// Scratch budget of the tiled path: the standardised block holds at most this many bytes
+/// (whatever N), so large cohorts keep the similarity step's extra memory to the scratch, the
+/// f64 accumulator and the output.
+pub const TILE_SCRATCH_BYTES: usize = 8 << 20;
+
+/// Features per block on the tiled path: [`FEATURE_BLOCK`], narrowed so the standardised block
+/// fits [`TILE_SCRATCH_BYTES`], and never below 1,024 (a tile's product must stay long enough
+/// for the kernel). Depends on N only, so results do not depend on the thread count.
+pub fn tile_feature_block(participants: usize) -> usize {
+    (TILE_SCRATCH_BYTES / (4 * participants.max(1))).clamp(1024, FEATURE_BLOCK) / 256 * 256
+}
+
 /// The tile size for N participants.
 pub fn tile_size(participants: usize) -> usize {
     (participants.div_ceil(8).div_ceil(16) * 16).clamp(MIN_TILE, MAX_TILE)
@@ -279,10 +291,11 @@ fn accumulate_by_tiles(
     let feature_count = features.feature_count();
     let tile = tile_size(participants);
     let tiles = lower_tiles(participants, tile);
-    let mut scratch = vec![0.0f32; participants * FEATURE_BLOCK.min(feature_count.max(1))];
+    let block_width = tile_feature_block(participants);
+    let mut scratch = vec![0.0f32; participants * block_width.min(feature_count.max(1))];
     let mut block_start = 0;
     while block_start < feature_count {
-        let block_end = (block_start + FEATURE_BLOCK).min(feature_count);
+        let block_end = (block_start + block_width).min(feature_count);
         let width = block_end - block_start;
         let block = &mut scratch[..participants * width];
         block.par_chunks_mut(width).zip(features.row_major().par_chunks(feature_count)).enumerate().for_each(
@@ -381,19 +394,8 @@ mod tests {
         assert!((similarity.values[[2, 1]] + 1.0).abs() < 1e-6);
     }
 
-    #[test]
-    fn spans_several_tiles_and_blocks_symmetrically() {
-        // More participants than one tile and more features than one block exercise the
-        // accumulation across blocks and the mirroring of the lower triangle.
-        let participants = MAX_TILE + 7;
-        let features = FEATURE_BLOCK + 13;
-        let values: Vec<f32> = (0..participants * features)
-            .map(|index| (((index * 2654435761) % 1000) as f32) / 1000.0)
-            .collect();
-        let features = matrix(participants, features, values);
-        let similarity = pearson(&features);
-        let (p, q) = (3, MAX_TILE + 5);
-        // Direct two-pass computation in f64 for one pair.
+    /// Direct two-pass Pearson correlation of rows p and q in f64 (the textbook definition).
+    fn direct(features: &FeatureMatrix, p: usize, q: usize) -> f64 {
         let row_p = features.values.row(p);
         let row_q = features.values.row(q);
         let mean_p = row_p.iter().map(|&v| f64::from(v)).sum::<f64>() / row_p.len() as f64;
@@ -405,8 +407,43 @@ mod tests {
             ss_p += da * da;
             ss_q += db * db;
         }
-        let expected = cross / (ss_p * ss_q).sqrt();
-        assert!((f64::from(similarity.values[[p, q]]) - expected).abs() < 1e-6);
+        cross / (ss_p * ss_q).sqrt()
+    }
+
+    fn hashed(participants: usize, features: usize) -> FeatureMatrix {
+        let values: Vec<f32> = (0..participants * features)
+            .map(|index| (((index * 2654435761) % 1000) as f32) / 1000.0)
+            .collect();
+        matrix(participants, features, values)
+    }
+
+    #[test]
+    fn spans_several_tiles_and_blocks_symmetrically() {
+        // More participants than one tile and more features than one block exercise the
+        // accumulation across blocks and the mirroring of the lower triangle (whole-block path).
+        let participants = MAX_TILE + 7;
+        let features = hashed(participants, FEATURE_BLOCK + 13);
+        let similarity = pearson(&features);
+        let (p, q) = (3, MAX_TILE + 5);
+        assert!((f64::from(similarity.values[[p, q]]) - direct(&features, p, q)).abs() < 1e-6);
         assert_eq!(similarity.values[[p, q]], similarity.values[[q, p]]);
+    }
+
+    #[test]
+    fn tiled_path_spans_tiles_and_narrowed_blocks() {
+        // Above WHOLE_BLOCK_MAX_PARTICIPANTS the tiled path runs, with feature blocks narrowed
+        // to the scratch budget: check pairs within one tile, across tiles, and the diagonal.
+        let participants = WHOLE_BLOCK_MAX_PARTICIPANTS + 9;
+        let block = tile_feature_block(participants);
+        assert!(block < FEATURE_BLOCK && participants * block * 4 <= TILE_SCRATCH_BYTES);
+        let features = hashed(participants, 2 * block + 13);
+        let similarity = pearson(&features);
+        let last = participants - 1;
+        for (p, q) in [(0, 1), (3, last), (tile_size(participants) + 1, 7), (last - 1, last)] {
+            let value = f64::from(similarity.values[[p, q]]);
+            assert!((value - direct(&features, p, q)).abs() < 1e-6, "pair ({p}, {q})");
+            assert_eq!(similarity.values[[p, q]], similarity.values[[q, p]]);
+        }
+        assert_eq!(similarity.values[[5, 5]], 1.0);
     }
 }
