@@ -113,10 +113,9 @@ fn check_label_volume(name: &str, file: &str, source_file: &str) {
             continue;
         }
         let ijk = [flat % nx, (flat / nx) % ny, flat / (nx * ny)];
-        for axis in 0..3 {
-            let mm: f64 =
-                (0..3).map(|c| volume.affine[axis][c] * ijk[c] as f64).sum::<f64>() + volume.affine[axis][3];
-            sums[label as usize][axis] += mm;
+        for (axis, sum) in sums[label as usize].iter_mut().enumerate() {
+            let row = &volume.affine[axis];
+            *sum += row[0] * ijk[0] as f64 + row[1] * ijk[1] as f64 + row[2] * ijk[2] as f64 + row[3];
         }
     }
     let index = table.column("index").unwrap();
