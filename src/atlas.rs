@@ -333,6 +333,16 @@ pub fn mask_path(value: Option<&Path>) -> Result<Option<PathBuf>, AtlasError> {
     value.map(|value| resolve_mask(value, "--mask")?.path()).transpose()
 }
 
+/// The readable path of a label-volume value (`NAME|FILE` of a flag taking an atlas volume,
+/// such as atlas seeds or region matrices from a volume): the file, or the built-in atlas's
+/// label volume written to the cache folder.
+///
+/// # Errors
+/// As [`resolve_volume`] and [`Resolved::path`].
+pub fn volume_path(value: &Path, flag: &str) -> Result<PathBuf, AtlasError> {
+    resolve_volume(value, flag)?.path()
+}
+
 /// Whether a configuration-file value should stay as written instead of being read from the
 /// file's folder: a built-in name with no file of that name in `folder`.
 pub fn is_builtin_value(value: &str, folder: &Path) -> bool {
@@ -575,6 +585,11 @@ mod tests {
             "an atlas's label volume is a mask"
         );
         assert!(resolve_volume(Path::new("mni152-2mm"), "--seed-atlas").is_err());
+        let labels = volume_path(Path::new("seitzman300"), "--seed-atlas").unwrap();
+        assert_eq!(
+            std::fs::read(labels).unwrap(),
+            find("seitzman300").unwrap().volume.as_ref().unwrap().bytes
+        );
     }
 
     #[test]

@@ -37,6 +37,7 @@ const MISSING: &str = "n/a";
 #[derive(Debug, Default)]
 struct Timings {
     stages: Vec<(String, f64)>,
+    peaks: Vec<(String, u64)>,
 }
 
 impl Timings {
@@ -44,10 +45,26 @@ impl Timings {
         let started = Instant::now();
         let result = work();
         let seconds = started.elapsed().as_secs_f64();
-        log.detail(&format!("{stage}: {seconds:.2} s"));
+        match peak_resident_bytes() {
+            Some(bytes) => {
+                log.detail(&format!("{stage}: {seconds:.2} s (peak memory so far {} MB)", bytes >> 20));
+                self.peaks.push((stage.to_string(), bytes));
+            }
+            None => log.detail(&format!("{stage}: {seconds:.2} s")),
+        }
         self.stages.push((stage.to_string(), seconds));
         result
     }
+}
+
+/// The process's peak resident memory so far (Linux `VmHWM` in `/proc/self/status`), or `None`
+/// where the system does not report it.
+pub fn peak_resident_bytes() -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|line| line.starts_with("VmHWM:"))?;
+    let kilobytes: u64 =
+        line.trim_start_matches("VmHWM:").trim().trim_end_matches("kB").trim().parse().ok()?;
+    Some(kilobytes * 1024)
 }
 
 /// Group labels of the analysed participants, with the levels in order of first appearance.
@@ -376,6 +393,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         ..summary
     };
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
+    // Nothing below needs the feature matrix, the similarity matrix or the communities (the
+    // report reads the files just written): free them so the report's buffers do not add to
+    // the run's peak memory.
+    drop((features, similarity, communities));
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
         command: std::env::args().collect(),
@@ -385,6 +406,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         parameters: serde_json::to_value(config).unwrap_or(serde_json::Value::Null),
         inputs: digests,
         stage_seconds: timings.stages,
+        stage_peak_memory_bytes: timings.peaks,
     };
     write_json(&output.path().join("provenance.json"), &provenance)?;
     write_json(&output.path().join("summary.json"), &summary)?;

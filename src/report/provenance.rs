@@ -43,6 +43,9 @@ pub struct Provenance {
     pub inputs: Vec<InputDigest>,
     /// Wall-clock seconds per stage, in pipeline order.
     pub stage_seconds: Vec<(String, f64)>,
+    /// Peak resident memory of the process after each stage (bytes, in pipeline order), where
+    /// the system reports it (Linux).
+    pub stage_peak_memory_bytes: Vec<(String, u64)>,
 }
 
 /// Hex SHA-256 of a file and its size.
