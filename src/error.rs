@@ -30,6 +30,9 @@ pub enum Error {
     /// New participants could not be assigned to an earlier run's communities.
     #[error(transparent)]
     Assign(#[from] crate::assign::AssignError),
+    /// A built-in atlas could not be resolved, cached or exported.
+    #[error(transparent)]
+    Atlas(#[from] crate::atlas::AtlasError),
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
@@ -88,6 +91,8 @@ impl Error {
             Error::Community(_) | Error::Null(_) | Error::Stability(_) => exit_code::ANALYSIS,
             Error::Assign(crate::assign::AssignError::InvalidConfidence { .. }) => exit_code::USAGE,
             Error::Assign(_) => exit_code::INPUT,
+            Error::Atlas(error) if error.is_usage() => exit_code::USAGE,
+            Error::Atlas(_) => exit_code::OUTPUT,
             Error::Write(_) => exit_code::OUTPUT,
             Error::Demo(_) => exit_code::OUTPUT,
             Error::Report(_) => exit_code::INPUT,

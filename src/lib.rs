@@ -34,6 +34,7 @@
 #![allow(clippy::result_large_err)]
 
 pub mod assign;
+pub mod atlas;
 pub mod check;
 pub mod communities;
 pub mod config;

@@ -224,14 +224,18 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 cohort.participant_ids.len(),
                 cohort.sources.len()
             ));
-            let region_names = match &config.atlas {
-                Some(path) => Some((path.clone(), read_atlas_names(path)?)),
+            let region_names = match crate::atlas::atlas_path(config.atlas.as_deref())? {
+                Some(path) => {
+                    let names = read_atlas_names(&path)?;
+                    Some((path, names))
+                }
                 None => None,
             };
+            let mask = crate::atlas::mask_path(config.mask.as_deref())?;
             let features = timings.time(log, "features", || {
                 let _bar = log.progress("reading", cohort.sources.len(), "participants");
                 let options = FeatureOptions {
-                    mask: config.mask.clone(),
+                    mask,
                     values: config.values.into(),
                     transform: config.transform.into(),
                     region_names,
@@ -1171,8 +1175,8 @@ fn write_contrast_summaries(
         }
     }
     top.write(&dir.join("top_edges.tsv"))?;
-    let Some(atlas) = &config.atlas else { return Ok(()) };
-    let atlas_table = read::read_table(atlas)?;
+    let Some(atlas) = crate::atlas::atlas_path(config.atlas.as_deref())? else { return Ok(()) };
+    let atlas_table = read::read_table(&atlas)?;
     let Some(networks) = atlas_table.column("network") else { return Ok(()) };
     let networks: Vec<String> = networks.iter().map(|n| n.trim().to_string()).collect();
     if networks.len() != edges.region_count {
@@ -1734,11 +1738,24 @@ fn shell_quoted(arg: &str) -> String {
 
 fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>, Error> {
     let mut files: Vec<(String, PathBuf)> = vec![(String::new(), config.participants.clone())];
-    if let Some(mask) = &config.mask {
-        files.push((String::new(), mask.clone()));
-    }
-    if let Some(atlas) = &config.atlas {
-        files.push((String::new(), atlas.clone()));
+    // Built-in atlases and masks are digested from the bytes compiled in, under the name given.
+    let mut built_ins = Vec::new();
+    let resolved = [
+        config.mask.as_deref().map(|mask| crate::atlas::resolve_mask(mask, "--mask")),
+        config.atlas.as_deref().map(|atlas| crate::atlas::resolve_table(atlas, "--atlas")),
+    ];
+    for (value, resolved) in [config.mask.as_deref(), config.atlas.as_deref()].into_iter().zip(resolved) {
+        let (Some(value), Some(resolved)) = (value, resolved) else { continue };
+        match resolved?.embedded() {
+            Some(file) => built_ins.push(InputDigest {
+                participant_id: String::new(),
+                path: value.display().to_string(),
+                bytes: file.bytes.len() as u64,
+                sha256: crate::atlas::sha256_hex(file.bytes),
+                built_in: Some(format!("{} (strata {})", file.name, crate::VERSION)),
+            }),
+            None => files.push((String::new(), value.to_path_buf())),
+        }
     }
     let mut seen = BTreeMap::new();
     for (id, source) in cohort.participant_ids.iter().zip(&cohort.sources) {
@@ -1757,9 +1774,20 @@ fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>
         .map(|(id, path)| {
             let (sha256, bytes) =
                 file_sha256(path).map_err(|source| WriteError::Io { path: path.clone(), source })?;
-            Ok(InputDigest { participant_id: id.clone(), path: path.display().to_string(), bytes, sha256 })
+            Ok(InputDigest {
+                participant_id: id.clone(),
+                path: path.display().to_string(),
+                bytes,
+                sha256,
+                built_in: None,
+            })
         })
-        .collect()
+        .collect::<Result<Vec<_>, Error>>()
+        .map(|mut digests| {
+            // After the participants table, where a mask or atlas file would be.
+            digests.splice(1..1, built_ins);
+            digests
+        })
 }
 
 /// Generates the fictional Northfield cohort and runs the whole analysis on it.

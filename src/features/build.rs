@@ -278,9 +278,8 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
         Some(mask_path) => {
             let mask = read_volume(mask_path, "(mask)")?;
             if mask.dim != first.dim || !affines_match(&mask.affine, &first.affine) {
-                return Err(FeatureError::GridMismatch {
+                return Err(FeatureError::MaskMismatch {
                     path: mask_path.clone(),
-                    participant: "(mask)".into(),
                     what: if mask.dim != first.dim { "grid" } else { "affine" },
                     found: format!("{:?} {}", mask.dim, format_affine(&mask.affine)),
                     expected: format!("{:?} {}", first.dim, format_affine(&first.affine)),

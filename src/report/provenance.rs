@@ -18,6 +18,10 @@ pub struct InputDigest {
     pub bytes: u64,
     /// Hex SHA-256 of the file's bytes.
     pub sha256: String,
+    /// For a built-in atlas or mask (`path` is then its name as given): the built-in file,
+    /// as `<file name> (strata <version>)`; `strata atlases NAME` prints the same digest.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub built_in: Option<String>,
 }
 
 /// What produced a run's outputs.
