@@ -53,7 +53,7 @@ pub fn tile_size(participants: usize) -> usize {
 ///
 /// Returns `(mean, inverse_norm)` per row; `inverse_norm` is 0 for a constant row (the features
 /// stage refuses those before this point, so a 0 here only guards the arithmetic). Each row is
-/// summed in [`LANES`] interleaved f64 partial sums combined in a fixed order (one pass of sums
+/// summed in 32 interleaved f64 partial sums combined in a fixed order (one pass of sums
 /// shifted by the row's first value), so the figures do not depend on the thread count or
 /// the vector width the CPU offers.
 pub fn standardise_rows(features: &FeatureMatrix) -> (Vec<f64>, Vec<f64>) {
