@@ -156,7 +156,24 @@ fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
         let mut filled = 0;
         loop {
             if filled == buffer.len() {
-                buffer.resize((buffer.len() * 2).max(1 << 16), 0);
+                // Full at the size the trailer gave: almost always the end of the stream. Probe
+                // with a small read before growing, so an exact-sized buffer is not doubled and
+                // zero-filled only to learn that nothing follows.
+                let mut probe = [0u8; 8192];
+                match decoder.read(&mut probe) {
+                    Ok(0) => break,
+                    Ok(read) => {
+                        buffer.resize((buffer.len() * 2).max(filled + read).max(1 << 16), 0);
+                        buffer[filled..filled + read].copy_from_slice(&probe[..read]);
+                        filled += read;
+                        continue;
+                    }
+                    Err(error) if error.kind() == std::io::ErrorKind::Interrupted => continue,
+                    Err(error) => {
+                        decoded = buffer;
+                        return Err(error);
+                    }
+                }
             }
             match decoder.read(&mut buffer[filled..]) {
                 Ok(0) => break,
@@ -481,4 +498,42 @@ pub fn format_affine(affine: &[[f64; 4]; 4]) -> String {
         .map(|row| row.iter().map(|v| format!("{v:.3}")).collect::<Vec<_>>().join(" "))
         .collect();
     format!("[{}]", rows.join("; "))
+}
+
+#[cfg(test)]
+mod tests {
+    use std::io::Write;
+
+    use super::read_bytes;
+
+    fn gzip(data: &[u8]) -> Vec<u8> {
+        let mut encoder = flate2::write::GzEncoder::new(Vec::new(), flate2::Compression::fast());
+        encoder.write_all(data).unwrap();
+        encoder.finish().unwrap()
+    }
+
+    #[test]
+    fn gzip_decodes_whatever_size_the_trailer_claims() {
+        // RFC 1952: ISIZE, the last 4 bytes, is the size of the last member only, so it is a
+        // hint that can be exact, too small (several members) or wrong (a damaged trailer).
+        let first: Vec<u8> = (0..300_000u32).map(|i| (i * 7 % 251) as u8).collect();
+        let second: Vec<u8> = (0..90_000u32).map(|i| (i % 13) as u8).collect();
+        let folder = tempfile::tempdir().unwrap();
+        let exact = folder.path().join("exact.gz");
+        std::fs::write(&exact, gzip(&first)).unwrap();
+        let members = folder.path().join("members.gz");
+        std::fs::write(&members, [gzip(&first), gzip(&second)].concat()).unwrap();
+        let mut overstated = gzip(&second);
+        let at = overstated.len() - 4;
+        overstated[at..].copy_from_slice(&(5_000_000u32).to_le_bytes());
+        let wrong = folder.path().join("wrong.gz");
+        std::fs::write(&wrong, &overstated).unwrap();
+        // Twice each, so the second pass runs on this thread's pooled buffers.
+        for _ in 0..2 {
+            assert_eq!(read_bytes(&exact).unwrap(), first);
+            assert_eq!(read_bytes(&members).unwrap(), [first.clone(), second.clone()].concat());
+            // A trailer that disagrees with the data is corruption: flate2 checks ISIZE.
+            assert!(read_bytes(&wrong).is_err());
+        }
+    }
 }
