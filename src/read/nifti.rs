@@ -143,7 +143,9 @@ fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
         let hint = input
             .len()
             .checked_sub(4)
-            .map_or(0, |at| u32::from_le_bytes([input[at], input[at + 1], input[at + 2], input[at + 3]]) as usize)
+            .map_or(0, |at| {
+                u32::from_le_bytes([input[at], input[at + 1], input[at + 2], input[at + 3]]) as usize
+            })
             .min(input.len().saturating_mul(DEFLATE_MAX_RATIO));
         let mut buffer = std::mem::take(&mut decoded);
         if buffer.len() < hint {
