@@ -34,7 +34,6 @@ pub struct FrameReader {
     participant: String,
     source: Box<dyn Read + Send>,
     stored: Vec<u8>,
-    size: usize,
     little_endian: bool,
     slope: f64,
     inter: f64,
@@ -70,7 +69,8 @@ impl FrameReader {
         let mut buffered = BufReader::with_capacity(READ_BUFFER_BYTES, file);
         let gzipped = {
             use std::io::BufRead;
-            let head = buffered.fill_buf().map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
+            let head =
+                buffered.fill_buf().map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
             head.len() >= 2 && head[0] == 0x1f && head[1] == 0x8b
         };
         let mut source: Box<dyn Read + Send> = if gzipped {
@@ -90,12 +90,10 @@ impl FrameReader {
         // Third-party header parsing of a user file: a malformed header is an error, never a crash.
         let header = match std::panic::catch_unwind(|| NiftiHeader::from_reader(&head[..])) {
             Ok(Ok(header)) => header,
-            _ => {
-                return Err(invalid(
-                    "cannot read the NIfTI-1 header; the file may be truncated, corrupt, or not a NIfTI image"
-                        .into(),
-                ))
-            }
+            _ => return Err(invalid(
+                "cannot read the NIfTI-1 header; the file may be truncated, corrupt, or not a NIfTI image"
+                    .into(),
+            )),
         };
         let rank = header.dim[0];
         if !(1..=7).contains(&rank) {
@@ -120,7 +118,9 @@ impl FrameReader {
         let offset = (header.vox_offset.max(0.0) as usize).max(NIFTI1_HEADER_BYTES);
         let mut skip = vec![0u8; offset - NIFTI1_HEADER_BYTES];
         read_full(&mut source, &mut skip).map_err(|error| {
-            invalid(format!("cannot read up to vox_offset {offset} ({error}); the file is truncated or corrupt"))
+            invalid(format!(
+                "cannot read up to vox_offset {offset} ({error}); the file is truncated or corrupt"
+            ))
         })?;
         let (slope, inter) = scaling(&header);
         let little_endian = header.endianness == nifti::Endianness::Little;
@@ -133,7 +133,6 @@ impl FrameReader {
             participant: participant.to_string(),
             source,
             stored: vec![0u8; dim[0] * dim[1] * dim[2] * size],
-            size,
             little_endian,
             slope,
             inter,

@@ -77,7 +77,14 @@ pub(crate) fn datatype_size(datatype: i16) -> Option<usize> {
 
 /// Converts stored values to f32 with the NIfTI-1 scaling y = slope * x + inter (slope 0 or
 /// non-finite means unscaled), computed in f64.
-pub(crate) fn decode_values(data: &[u8], datatype: i16, little_endian: bool, slope: f64, inter: f64, out: &mut [f32]) {
+pub(crate) fn decode_values(
+    data: &[u8],
+    datatype: i16,
+    little_endian: bool,
+    slope: f64,
+    inter: f64,
+    out: &mut [f32],
+) {
     macro_rules! convert {
         ($type:ty, $size:expr) => {
             for (target, chunk) in out.iter_mut().zip(data.chunks_exact($size)) {
