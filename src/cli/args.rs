@@ -141,7 +141,7 @@ pub struct ConnectivityArgs {
         num_args = 1,
         group = "target",
         requires = "radius",
-        allow_negative_numbers = true,
+        allow_hyphen_values = true,
         help_heading = "Seed or regions"
     )]
     pub seed_sphere: Option<Vec<f64>>,

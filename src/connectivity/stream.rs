@@ -101,8 +101,7 @@ pub fn seed_map(
     model: &NuisanceModel,
     seed: &[usize],
 ) -> Result<SeedMap, ConnectivityError> {
-    let mut reader = FrameReader::open(path, participant).map_err(ConnectivityError::Read)?;
-    check_frames(&reader, path, participant, model)?;
+    let mut reader = open(path, participant, model)?;
     let voxels = reader.voxel_count();
     let rank = model.basis.rank;
     // Coefficients per kept frame: the basis row, then the shifted seed value.
@@ -261,8 +260,7 @@ pub fn region_matrix(
     model: &NuisanceModel,
     regions: &Regions,
 ) -> Result<RegionMatrix, ConnectivityError> {
-    let mut reader = FrameReader::open(path, participant).map_err(ConnectivityError::Read)?;
-    check_frames(&reader, path, participant, model)?;
+    let mut reader = open(path, participant, model)?;
     let count = regions.labels.len();
     let kept = model.kept_count();
     // series[t * R + region]: the region means of kept frame t.
@@ -363,12 +361,12 @@ fn residual_correlations(series: &[f64], kept: usize, count: usize, model: &Nuis
     RegionMatrix { r, regions: count, constant_regions, nonfinite_regions }
 }
 
-fn check_frames(
-    reader: &FrameReader,
-    path: &Path,
-    participant: &str,
-    model: &NuisanceModel,
-) -> Result<(), ConnectivityError> {
+/// Opens a series for correlation: stored values unscaled (see [`FrameReader::ignore_scaling`];
+/// a correlation is unchanged when every value goes through the same y = slope * x + inter with
+/// slope != 0), and its frame count checked against the model's.
+fn open(path: &Path, participant: &str, model: &NuisanceModel) -> Result<FrameReader, ConnectivityError> {
+    let mut reader = FrameReader::open(path, participant).map_err(ConnectivityError::Read)?;
+    reader.ignore_scaling();
     if reader.frames != model.kept.len() {
         return Err(invalid(
             path,
@@ -380,7 +378,7 @@ fn check_frames(
             ),
         ));
     }
-    Ok(())
+    Ok(reader)
 }
 
 #[cfg(test)]

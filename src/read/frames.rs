@@ -141,6 +141,21 @@ impl FrameReader {
         })
     }
 
+    /// The NIfTI-1 scaling (slope, intercept) the header asks for; (1, 0) when unscaled.
+    pub fn scaling(&self) -> (f64, f64) {
+        (self.slope, self.inter)
+    }
+
+    /// From now on, decode the stored values without the header's `scl_slope`/`scl_inter`.
+    ///
+    /// For callers whose result does not change under one affine map of every value, such as
+    /// correlations: integer storage (int16 BOLD) then reaches f32 exactly, where the scaled
+    /// values would be rounded to f32.
+    pub fn ignore_scaling(&mut self) {
+        self.slope = 1.0;
+        self.inter = 0.0;
+    }
+
     /// Voxels per frame.
     pub fn voxel_count(&self) -> usize {
         self.dim[0] * self.dim[1] * self.dim[2]
