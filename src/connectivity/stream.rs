@@ -165,7 +165,7 @@ pub fn seed_map(
             path,
             participant,
             format!(
-                "the seed's mean series ({} voxels) is constant after regressing out the intercept{}; the seed \
+                "the seed's mean series ({} voxel(s)) is constant after regressing out the intercept{}; the seed \
                  lies outside the brain or on voxels without signal: check its position against this series",
                 seed.len(),
                 if rank > 1 { " and confounds" } else { "" }
