@@ -172,7 +172,14 @@ impl FrameReader {
             return Ok(false);
         }
         let frame = self.next;
-        read_full(&mut self.source, &mut self.stored).map_err(|error| ReadError::Invalid {
+        // float32 stored as this machine holds it, unscaled: read straight into `out`.
+        let direct = self.header.datatype == 16
+            && self.little_endian == cfg!(target_endian = "little")
+            && self.slope == 1.0
+            && self.inter == 0.0
+            && out.len() * 4 == self.stored.len();
+        let target: &mut [u8] = if direct { bytemuck::cast_slice_mut(out) } else { &mut self.stored };
+        read_full(&mut self.source, target).map_err(|error| ReadError::Invalid {
             path: self.path.clone(),
             participant: self.participant.clone(),
             problem: format!(
@@ -181,7 +188,16 @@ impl FrameReader {
                 self.frames
             ),
         })?;
-        decode_values(&self.stored, self.header.datatype, self.little_endian, self.slope, self.inter, out);
+        if !direct {
+            decode_values(
+                &self.stored,
+                self.header.datatype,
+                self.little_endian,
+                self.slope,
+                self.inter,
+                out,
+            );
+        }
         self.next += 1;
         if self.next == self.frames {
             let mut rest = Vec::new();
