@@ -111,7 +111,7 @@ fn generate(dir: &Path, participants: usize) {
                 *value += ((next(&mut state) >> 40) as f64 / (1u64 << 24) as f64 - 0.5) * 0.02;
             }
             let derivative = if t == 0 { "n/a".to_string() } else { format!("{}", motion[0] - previous) };
-            let keep = if next(&mut state) % 20 == 0 { 0 } else { 1 };
+            let keep = if next(&mut state).is_multiple_of(20) { 0 } else { 1 };
             let row: Vec<String> = motion.iter().map(|v| format!("{v}")).collect();
             confounds.push_str(&format!("{}\t{derivative}\t{keep}\n", row.join("\t")));
         }

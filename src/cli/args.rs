@@ -73,7 +73,7 @@ pub enum Command {
     #[command(after_help = REPORT_EXAMPLE)]
     Report(ReportArgs),
     /// Compute seed maps or region matrices from preprocessed 4D BOLD series, one per
-    /// participant (confounds regressed out, censored frames dropped), named sub-<label>_... so
+    /// participant (confounds regressed out, censored frames dropped), named `sub-<label>_...` so
     /// `strata run --inputs` reads them.
     #[command(after_help = CONNECTIVITY_EXAMPLE)]
     Connectivity(Box<ConnectivityArgs>),
@@ -96,11 +96,11 @@ frames at a time; participants run in parallel (--threads).";
 #[derive(Debug, Args)]
 pub struct ConnectivityArgs {
     /// The 4D BOLD series (NIfTI-1, .nii or .nii.gz): a glob pattern or paths (repeat the flag or
-    /// separate with commas), one per participant, named sub-<label>_...
+    /// separate with commas), one per participant, named `sub-<label>_...`
     #[arg(long, value_name = "GLOB", required = true, value_delimiter = ',', help_heading = "Inputs")]
     pub bold: Vec<String>,
     /// Confounds tables (TSV with a header, one row per frame), one per participant, matched by
-    /// sub-<label>. Leading n/a of a column (derivatives) take the column's mean. Without it only
+    /// `sub-<label>`. Leading n/a of a column (derivatives) take the column's mean. Without it only
     /// the mean is removed.
     #[arg(long, value_name = "GLOB", value_delimiter = ',', help_heading = "Nuisance")]
     pub confounds: Vec<String>,
@@ -119,7 +119,7 @@ pub struct ConnectivityArgs {
     #[arg(long, value_name = "COLUMN", help_heading = "Nuisance")]
     pub censor_column: Option<String>,
     /// Separate censoring tables (TSV with a header holding --censor-column), one per
-    /// participant, matched by sub-<label>.
+    /// participant, matched by `sub-<label>`.
     #[arg(
         long,
         value_name = "GLOB",

@@ -262,8 +262,8 @@ pub fn read_censoring(
         .iter()
         .enumerate()
         .map(|(row, cell)| match cell.parse::<f64>() {
-            Ok(value) if value == 1.0 => Ok(true),
-            Ok(value) if value == 0.0 => Ok(false),
+            Ok(1.0) => Ok(true),
+            Ok(0.0) => Ok(false),
             _ => Err(problem(format!(
                 "line {}, censoring column '{column}': '{cell}'; expected 1 (keep the frame) or 0 (drop it)",
                 table.line_of(row)

@@ -162,7 +162,7 @@ pub fn seed_map(
     drop(batch);
 
     let seed_residual = seed_squares - seed_projection.iter().map(|p| p * p).sum::<f64>();
-    if !(seed_residual > CONSTANT_TOLERANCE * seed_squares) {
+    if seed_residual.is_nan() || seed_residual <= CONSTANT_TOLERANCE * seed_squares {
         return Err(invalid(
             path,
             participant,
@@ -189,7 +189,7 @@ pub fn seed_map(
         let residual = squares - projected;
         if !(cross.is_finite() && residual.is_finite()) {
             nonfinite_voxels += 1;
-        } else if !(residual > CONSTANT_TOLERANCE * squares) {
+        } else if residual <= CONSTANT_TOLERANCE * squares {
             constant_voxels += 1;
         } else {
             *value = (cross / (residual * seed_residual).sqrt()).clamp(-1.0, 1.0);
@@ -375,7 +375,7 @@ fn residual_correlations(series: &[f64], kept: usize, count: usize, model: &Nuis
         if !variance.is_finite() {
             nonfinite_regions.push(region);
             usable[region] = false;
-        } else if !(variance > CONSTANT_TOLERANCE * squares[region]) {
+        } else if variance <= CONSTANT_TOLERANCE * squares[region] {
             constant_regions.push(region);
             usable[region] = false;
         }

@@ -99,7 +99,7 @@ impl FrameReader {
         if !(1..=7).contains(&rank) {
             return Err(invalid(format!("dim[0] = {rank} is not a valid number of dimensions (1-7)")));
         }
-        let dims: Vec<usize> = header.dim[1..=rank as usize].iter().map(|&d| d.max(0) as usize).collect();
+        let dims: Vec<usize> = header.dim[1..=rank as usize].iter().map(|&d| d as usize).collect();
         let shape = dims.iter().map(usize::to_string).collect::<Vec<_>>().join("x");
         let beyond: usize = dims.iter().skip(4).product();
         if dims.len() < 4 || beyond > 1 || dims[3] < 1 || dims[..3].contains(&0) {
