@@ -634,7 +634,16 @@ fn check_values(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Finding>
 
 fn check_features(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Finding>) -> Option<Features> {
     const NAME: &str = "features";
-    let region_names = match &config.atlas {
+    let resolved = crate::atlas::atlas_path(config.atlas.as_deref())
+        .and_then(|atlas| Ok((atlas, crate::atlas::mask_path(config.mask.as_deref())?)));
+    let (atlas, mask) = match resolved {
+        Ok(paths) => paths,
+        Err(error) => {
+            findings.push(Finding::fail(NAME, error.to_string(), "set TMPDIR to a writable folder"));
+            return None;
+        }
+    };
+    let region_names = match &atlas {
         Some(path) => match read::read_table(path) {
             Ok(table) => table
                 .column("name")
@@ -651,7 +660,7 @@ fn check_features(config: &RunConfig, cohort: &Cohort, findings: &mut Vec<Findin
         None => None,
     };
     let options = FeatureOptions {
-        mask: config.mask.clone(),
+        mask,
         values: config.values.into(),
         transform: config.transform.into(),
         region_names,

@@ -99,7 +99,8 @@ pub struct RunConfig {
     pub out: PathBuf,
     /// Replace an existing, non-empty output folder.
     pub force: bool,
-    /// A mask volume for seed maps (non-zero voxels are kept).
+    /// A mask volume for seed maps (non-zero voxels are kept): a file, or a built-in name as
+    /// given (resolved where read, by [`crate::atlas::mask_path`]).
     pub mask: Option<PathBuf>,
     /// How input values are scaled.
     pub values: Values,
@@ -112,7 +113,8 @@ pub struct RunConfig {
     /// A separate measures table keyed by `participant_id` (all numeric columns when
     /// `measures` is empty).
     pub measures_table: Option<PathBuf>,
-    /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions.
+    /// An atlas table (TSV with `index` and `name` columns, optional `network`) naming regions:
+    /// a file, or a built-in name as given (resolved where read, by [`crate::atlas::atlas_path`]).
     pub atlas: Option<PathBuf>,
     /// How the sweep's graphs are cut from the similarity matrix.
     pub graph: GraphRule,
@@ -428,6 +430,14 @@ impl RunConfig {
 
     /// Checks cross-flag rules; every message names the flags involved.
     pub fn validate(self) -> Result<Self, ConfigError> {
+        // Built-in names are resolved here so an unknown name fails before anything is read.
+        if let Some(atlas) = &self.atlas {
+            crate::atlas::resolve_table(atlas, "--atlas")
+                .map_err(|error| invalid("--atlas", error.problem()))?;
+        }
+        if let Some(mask) = &self.mask {
+            crate::atlas::resolve_mask(mask, "--mask").map_err(|error| invalid("--mask", error.problem()))?;
+        }
         if self.uses_measures() && (!self.inputs.is_empty() || self.similarity.is_some()) {
             return Err(invalid(
                 "--measures",

@@ -33,6 +33,9 @@ pub enum Error {
     /// Seed maps or region matrices could not be computed from BOLD series.
     #[error(transparent)]
     Connectivity(#[from] crate::connectivity::ConnectivityError),
+    /// A built-in atlas could not be resolved, cached or exported.
+    #[error(transparent)]
+    Atlas(#[from] crate::atlas::AtlasError),
     /// An output could not be written.
     #[error(transparent)]
     Write(#[from] crate::maps::WriteError),
@@ -93,6 +96,8 @@ impl Error {
             Error::Community(_) | Error::Null(_) | Error::Stability(_) => exit_code::ANALYSIS,
             Error::Assign(crate::assign::AssignError::InvalidConfidence { .. }) => exit_code::USAGE,
             Error::Assign(_) => exit_code::INPUT,
+            Error::Atlas(error) if error.is_usage() => exit_code::USAGE,
+            Error::Atlas(_) => exit_code::OUTPUT,
             Error::Write(_) => exit_code::OUTPUT,
             Error::Demo(_) => exit_code::OUTPUT,
             Error::Report(_) => exit_code::INPUT,

@@ -36,6 +36,7 @@
 #![allow(clippy::result_large_err)]
 
 pub mod assign;
+pub mod atlas;
 pub mod check;
 pub mod communities;
 pub mod config;

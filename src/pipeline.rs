@@ -37,6 +37,7 @@ const MISSING: &str = "n/a";
 #[derive(Debug, Default)]
 struct Timings {
     stages: Vec<(String, f64)>,
+    peaks: Vec<(String, u64)>,
 }
 
 impl Timings {
@@ -44,10 +45,26 @@ impl Timings {
         let started = Instant::now();
         let result = work();
         let seconds = started.elapsed().as_secs_f64();
-        log.detail(&format!("{stage}: {seconds:.2} s"));
+        match peak_resident_bytes() {
+            Some(bytes) => {
+                log.detail(&format!("{stage}: {seconds:.2} s (peak memory so far {} MB)", bytes >> 20));
+                self.peaks.push((stage.to_string(), bytes));
+            }
+            None => log.detail(&format!("{stage}: {seconds:.2} s")),
+        }
         self.stages.push((stage.to_string(), seconds));
         result
     }
+}
+
+/// The process's peak resident memory so far (Linux `VmHWM` in `/proc/self/status`), or `None`
+/// where the system does not report it.
+pub fn peak_resident_bytes() -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|line| line.starts_with("VmHWM:"))?;
+    let kilobytes: u64 =
+        line.trim_start_matches("VmHWM:").trim().trim_end_matches("kB").trim().parse().ok()?;
+    Some(kilobytes * 1024)
 }
 
 /// Group labels of the analysed participants, with the levels in order of first appearance.
@@ -207,14 +224,18 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
                 cohort.participant_ids.len(),
                 cohort.sources.len()
             ));
-            let region_names = match &config.atlas {
-                Some(path) => Some((path.clone(), read_atlas_names(path)?)),
+            let region_names = match crate::atlas::atlas_path(config.atlas.as_deref())? {
+                Some(path) => {
+                    let names = read_atlas_names(&path)?;
+                    Some((path, names))
+                }
                 None => None,
             };
+            let mask = crate::atlas::mask_path(config.mask.as_deref())?;
             let features = timings.time(log, "features", || {
                 let _bar = log.progress("reading", cohort.sources.len(), "participants");
                 let options = FeatureOptions {
-                    mask: config.mask.clone(),
+                    mask,
                     values: config.values.into(),
                     transform: config.transform.into(),
                     region_names,
@@ -372,6 +393,10 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         ..summary
     };
     let digests = timings.time(log, "digests", || input_digests(config, &cohort))?;
+    // Nothing below needs the feature matrix, the similarity matrix or the communities (the
+    // report reads the files just written): free them so the report's buffers do not add to
+    // the run's peak memory.
+    drop((features, similarity, communities));
     let provenance = Provenance {
         strata_version: crate::VERSION.to_string(),
         command: std::env::args().collect(),
@@ -381,6 +406,7 @@ pub fn run(config: &RunConfig, log: &Log) -> Result<RunSummary, Error> {
         parameters: serde_json::to_value(config).unwrap_or(serde_json::Value::Null),
         inputs: digests,
         stage_seconds: timings.stages,
+        stage_peak_memory_bytes: timings.peaks,
     };
     write_json(&output.path().join("provenance.json"), &provenance)?;
     write_json(&output.path().join("summary.json"), &summary)?;
@@ -1149,8 +1175,8 @@ fn write_contrast_summaries(
         }
     }
     top.write(&dir.join("top_edges.tsv"))?;
-    let Some(atlas) = &config.atlas else { return Ok(()) };
-    let atlas_table = read::read_table(atlas)?;
+    let Some(atlas) = crate::atlas::atlas_path(config.atlas.as_deref())? else { return Ok(()) };
+    let atlas_table = read::read_table(&atlas)?;
     let Some(networks) = atlas_table.column("network") else { return Ok(()) };
     let networks: Vec<String> = networks.iter().map(|n| n.trim().to_string()).collect();
     if networks.len() != edges.region_count {
@@ -1712,11 +1738,24 @@ fn shell_quoted(arg: &str) -> String {
 
 fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>, Error> {
     let mut files: Vec<(String, PathBuf)> = vec![(String::new(), config.participants.clone())];
-    if let Some(mask) = &config.mask {
-        files.push((String::new(), mask.clone()));
-    }
-    if let Some(atlas) = &config.atlas {
-        files.push((String::new(), atlas.clone()));
+    // Built-in atlases and masks are digested from the bytes compiled in, under the name given.
+    let mut built_ins = Vec::new();
+    let resolved = [
+        config.mask.as_deref().map(|mask| crate::atlas::resolve_mask(mask, "--mask")),
+        config.atlas.as_deref().map(|atlas| crate::atlas::resolve_table(atlas, "--atlas")),
+    ];
+    for (value, resolved) in [config.mask.as_deref(), config.atlas.as_deref()].into_iter().zip(resolved) {
+        let (Some(value), Some(resolved)) = (value, resolved) else { continue };
+        match resolved?.embedded() {
+            Some(file) => built_ins.push(InputDigest {
+                participant_id: String::new(),
+                path: value.display().to_string(),
+                bytes: file.bytes.len() as u64,
+                sha256: crate::atlas::sha256_hex(file.bytes),
+                built_in: Some(format!("{} (strata {})", file.name, crate::VERSION)),
+            }),
+            None => files.push((String::new(), value.to_path_buf())),
+        }
     }
     let mut seen = BTreeMap::new();
     for (id, source) in cohort.participant_ids.iter().zip(&cohort.sources) {
@@ -1735,9 +1774,20 @@ fn input_digests(config: &RunConfig, cohort: &Cohort) -> Result<Vec<InputDigest>
         .map(|(id, path)| {
             let (sha256, bytes) =
                 file_sha256(path).map_err(|source| WriteError::Io { path: path.clone(), source })?;
-            Ok(InputDigest { participant_id: id.clone(), path: path.display().to_string(), bytes, sha256 })
+            Ok(InputDigest {
+                participant_id: id.clone(),
+                path: path.display().to_string(),
+                bytes,
+                sha256,
+                built_in: None,
+            })
         })
-        .collect()
+        .collect::<Result<Vec<_>, Error>>()
+        .map(|mut digests| {
+            // After the participants table, where a mask or atlas file would be.
+            digests.splice(1..1, built_ins);
+            digests
+        })
 }
 
 /// Generates the fictional Northfield cohort and runs the whole analysis on it.

@@ -150,3 +150,29 @@ fn sphere_voxels_equal_nibabel_apply_affine() {
         assert_eq!(got, expected, "sphere {index}");
     }
 }
+
+#[test]
+fn a_nifti2_series_gives_the_values_of_its_nifti1_copy() {
+    // bold/nifti2/sub-01_task-rest_bold.nii: the same float32 series written by nibabel's
+    // Nifti2Image (540-byte header); expected values are those of the case "mask_plain".
+    let reference = reference();
+    let case =
+        reference["cases"].as_array().unwrap().iter().find(|case| case["name"] == "mask_plain").unwrap();
+    let expected: Vec<f64> =
+        case["expected"]["sub-01"].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect();
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let output = Command::new(env!("CARGO_BIN_EXE_strata"))
+        .args(["connectivity", "--quiet", "--bold"])
+        .arg(data_dir().join("bold/nifti2/sub-01_task-rest_bold.nii"))
+        .arg("--seed-mask")
+        .arg(data_dir().join("bold/seed_mask.nii.gz"))
+        .arg("--out")
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    let volume = read_volume(&out.join("sub-01_stat-r_seedmap.nii.gz"), "sub-01").unwrap();
+    let got: Vec<f64> = volume.values.iter().map(|&v| f64::from(v)).collect();
+    compare("nifti2", "sub-01", &got, &expected);
+}

@@ -72,11 +72,43 @@ pub enum Command {
     /// Render report.html again from a finished run folder's files, without recomputing.
     #[command(after_help = REPORT_EXAMPLE)]
     Report(ReportArgs),
+    /// List the atlases and masks built into strata (names for --atlas and --mask), show one,
+    /// or write one's files into a folder.
+    #[command(after_help = ATLASES_EXAMPLE)]
+    Atlases(AtlasesArgs),
     /// Compute seed maps or region matrices from preprocessed 4D BOLD series, one per
     /// participant (confounds regressed out, censored frames dropped), named `sub-<label>_...` so
     /// `strata run --inputs` reads them.
     #[command(after_help = CONNECTIVITY_EXAMPLE)]
     Connectivity(Box<ConnectivityArgs>),
+}
+
+const ATLASES_EXAMPLE: &str = "\
+Built-in names work wherever an atlas or mask is taken (--atlas NAME, --mask NAME); a file of the
+same name in the working folder wins over the built-in.
+
+Examples:
+  strata atlases
+      list them: name, kind, regions, networks, volume grid, source, licence
+  strata atlases dosenbach160
+      its files with size and SHA-256, then its README (source, citation, licence)
+  strata atlases dosenbach160 --export atlas/
+      write its region table, label volume and README into atlas/
+  strata run --inputs 'conn/sub-*_conn.npy' --atlas dosenbach160 ...";
+
+/// Flags of `strata atlases`.
+#[derive(Debug, Args)]
+pub struct AtlasesArgs {
+    /// A built-in atlas or mask: print its files (size, SHA-256) and README, or export it.
+    #[arg(value_name = "NAME", value_parser = clap::builder::PossibleValuesParser::new(crate::atlas::NAMES))]
+    pub name: Option<String>,
+    /// Write NAME's files (region table, label or mask volume, README.md) into this folder,
+    /// created if missing; a file there with other contents is refused unless --force.
+    #[arg(long, value_name = "DIR", requires = "name")]
+    pub export: Option<PathBuf>,
+    /// With --export: replace files of the same name that differ.
+    #[arg(long, requires = "export")]
+    pub force: bool,
 }
 
 const CONNECTIVITY_EXAMPLE: &str = "\
@@ -95,7 +127,7 @@ frames at a time; participants run in parallel (--threads).";
 /// Flags of `strata connectivity`.
 #[derive(Debug, Args)]
 pub struct ConnectivityArgs {
-    /// The 4D BOLD series (NIfTI-1, .nii or .nii.gz): a glob pattern or paths (repeat the flag or
+    /// The 4D BOLD series (NIfTI-1 or NIfTI-2, .nii or .nii.gz): a glob pattern or paths (repeat the flag or
     /// separate with commas), one per participant, named `sub-<label>_...`
     #[arg(long, value_name = "GLOB", required = true, value_delimiter = ',', help_heading = "Inputs")]
     pub bold: Vec<String>,
@@ -575,9 +607,11 @@ pub struct RunArgs {
     /// name) instead of the `sub-<label>` in the file name.
     #[arg(long, value_name = "COLUMN", help_heading = "Inputs")]
     pub match_column: Option<String>,
-    /// Mask volume for seed maps: non-zero voxels are analysed. Default: the voxels finite and
-    /// non-zero in every participant.
-    #[arg(long, value_name = "FILE", help_heading = "Inputs")]
+    /// Mask volume for seed maps: non-zero voxels are analysed. A file, or a built-in name:
+    /// mni152-2mm (MNI152 brain mask, 91x109x91 at 2 mm), or an atlas name (the voxels of its
+    /// label volume); a file of that name wins. Default: the voxels finite and non-zero in
+    /// every participant.
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Inputs")]
     pub mask: Option<PathBuf>,
     /// How input values are scaled: r (correlations; range-checked, Fisher z applied), z
     /// (already Fisher z) or raw (not correlations, such as streamline counts or fibre densities:
@@ -602,9 +636,11 @@ pub struct RunArgs {
     /// its numeric columns are used.
     #[arg(long, value_name = "TSV", conflicts_with_all = ["inputs", "similarity"], help_heading = "Inputs")]
     pub measures_table: Option<PathBuf>,
-    /// Atlas table naming the regions of matrices: TSV with columns index, name (and optionally
-    /// network), one row per region in matrix order.
-    #[arg(long, value_name = "TSV", help_heading = "Inputs")]
+    /// Atlas naming the regions of matrices (edge labels, network blocks, figure order): a TSV
+    /// with columns index, name (and optionally network), one row per region in matrix order, or
+    /// a built-in name: northfield100, dosenbach160, seitzman300 (`strata atlases` lists them);
+    /// a file of that name wins.
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Inputs")]
     pub atlas: Option<PathBuf>,
 
     /// Participants-table column holding the group labels (for example diagnosis). Required.

@@ -22,6 +22,9 @@ enum Kind {
     Text,
     /// A file or folder path, relative to the configuration file's folder.
     Path,
+    /// A file path as [`Kind::Path`], or a built-in atlas or mask name (kept as written when no
+    /// file of that name is in the configuration file's folder: [`crate::atlas`]).
+    PathOrName,
     /// One glob pattern or a list of them, relative to the configuration file's folder.
     Globs,
     /// One of the flag's possible values (taken from clap).
@@ -47,13 +50,13 @@ const KEYS: &[(&str, Kind)] = &[
     ("similarity", Kind::Path),
     ("participants", Kind::Path),
     ("match_column", Kind::Text),
-    ("mask", Kind::Path),
+    ("mask", Kind::PathOrName),
     ("values", Kind::Choice),
     ("transform", Kind::Choice),
     ("variable", Kind::Text),
     ("measures", Kind::Names),
     ("measures_table", Kind::Path),
-    ("atlas", Kind::Path),
+    ("atlas", Kind::PathOrName),
     ("group_column", Kind::Text),
     ("contrast", Kind::Contrast),
     ("alpha", Kind::Number),
@@ -136,6 +139,7 @@ fn allowed_text(key: &str, kind: Kind) -> String {
     match kind {
         Kind::Text => "a text string".into(),
         Kind::Path => "a path as a string (relative to the configuration file's folder)".into(),
+        Kind::PathOrName => "a path as a string (relative to the configuration file's folder) or a built-in name (`strata atlases` lists them)".into(),
         Kind::Globs => "a glob pattern or a list of them, as strings".into(),
         Kind::Choice => format!("one of {}", possible_values(key).join(", ")),
         Kind::Number => "a number".into(),
@@ -248,6 +252,14 @@ impl ConfigFile {
                 (Kind::Globs | Kind::Path, toml::Value::String(text)) => {
                     flags.push(format!("{flag}={}", self.anchored(text)))
                 }
+                (Kind::PathOrName, toml::Value::String(text)) => {
+                    let folder = self.path.parent().unwrap_or(Path::new(""));
+                    if crate::atlas::is_builtin_value(text, folder) {
+                        flags.push(format!("{flag}={text}"));
+                    } else {
+                        flags.push(format!("{flag}={}", self.anchored(text)));
+                    }
+                }
                 (Kind::Sweep | Kind::Contrast | Kind::Names, toml::Value::Array(items)) => {
                     let parts: Vec<String> = items.iter().map(scalar_text).collect();
                     flags.push(format!("{flag}={}", parts.join(",")));
@@ -324,7 +336,7 @@ fn scalar_text(value: &toml::Value) -> String {
 fn check_value(path: &Path, key: &str, kind: Kind, value: &toml::Value) -> Result<(), ConfigError> {
     use toml::Value;
     let ok = match (kind, value) {
-        (Kind::Text | Kind::Path, Value::String(text)) => !text.is_empty(),
+        (Kind::Text | Kind::Path | Kind::PathOrName, Value::String(text)) => !text.is_empty(),
         (Kind::Globs, Value::String(text)) => !text.is_empty(),
         (Kind::Globs, Value::Array(items)) => {
             !items.is_empty() && items.iter().all(|item| item.as_str().is_some_and(|text| !text.is_empty()))
@@ -548,5 +560,26 @@ mod tests {
         // A flag on the command line takes the key's place, and --similarity the place of inputs.
         let flags = file.flags(|key| key == "similarity" || key == "mask");
         assert_eq!(flags, vec!["--force", "--participants=study/participants.tsv"]);
+    }
+
+    #[test]
+    fn built_in_names_are_kept_unless_a_file_of_that_name_is_beside_the_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("run.toml");
+        let text = "atlas = \"dosenbach160\"\nmask = \"mni152-2mm\"\nparticipants = \"dosenbach160\"\n";
+        let file = ConfigFile::parse(&path, text).unwrap();
+        let folder = dir.path().display();
+        assert_eq!(
+            file.flags(|_| false),
+            vec![
+                "--atlas=dosenbach160".to_string(),
+                "--mask=mni152-2mm".to_string(),
+                // A plain path key is always read from the file's folder.
+                format!("--participants={folder}/dosenbach160"),
+            ]
+        );
+        // A file named like a built-in, beside the configuration file, wins.
+        std::fs::write(dir.path().join("dosenbach160"), "index\tname\n").unwrap();
+        assert_eq!(file.flags(|_| false)[0], format!("--atlas={folder}/dosenbach160"));
     }
 }

@@ -185,6 +185,19 @@ pub fn run_parsed(parsed: Parsed) -> Result<(), Error> {
             Ok(())
         }
         Command::Manpage(manpage) => write_manpages(manpage.out_dir.as_deref()),
+        Command::Atlases(atlases) => {
+            let built_in = atlases.name.as_deref().and_then(crate::atlas::find);
+            match (built_in, &atlases.export) {
+                (None, _) => print!("{}", crate::atlas::listing()),
+                (Some(built_in), None) => print!("{}", crate::atlas::details(built_in)),
+                (Some(built_in), Some(folder)) => {
+                    for path in crate::atlas::export(built_in, folder, atlases.force)? {
+                        println!("{}", path.display());
+                    }
+                }
+            }
+            Ok(())
+        }
     }
 }
 

@@ -6,7 +6,7 @@ use ndarray::Array2;
 use rayon::prelude::*;
 use serde::Serialize;
 
-use super::fisher::{fisher_z, FISHER_Z_CLIP, RANGE_TOLERANCE};
+use super::fisher::{fisher_z, fisher_z_in_place, FISHER_Z_CLIP, RANGE_TOLERANCE};
 use super::{EdgeSpace, FeatureError, FeatureMatrix, FeatureSpace, MeasureSpace, VoxelSpace};
 use crate::read::cifti::{is_pconn, read_pconn};
 use crate::read::matrix::{read_matrix_in, read_stack_in};
@@ -132,6 +132,50 @@ fn transform(value: f64, options: &FeatureOptions, clipped: &mut usize) -> Resul
     }
 }
 
+/// True when `row` holds correlations to be Fisher-transformed (no other transform) that are all
+/// finite, non-zero and below the clip (|r| < 1 - [`FISHER_Z_CLIP`]): then no column is dropped
+/// or clipped and the row goes straight to [`fisher_z_in_place`]. Branch-free, so the check
+/// runs several values at a time.
+fn ordinary_correlations(row: &[f32], options: &FeatureOptions) -> bool {
+    let near_one = 1.0 - FISHER_Z_CLIP;
+    matches!((options.values, options.transform), (ValueScale::Correlation, ValueTransform::None))
+        && row.iter().fold(true, |ordinary, &value| {
+            // NaN and infinities fail the comparison.
+            ordinary & (value != 0.0) & (f64::from(value.abs()) < near_one)
+        })
+}
+
+/// Transforms a row of stored values in place, as [`transform`] value by value; NaN marks a
+/// column already invalid and stays NaN. Returns the number of clipped values, or the first
+/// offending column and the problem.
+///
+/// Correlations with no other transform (the common case) are range-checked in one pass and
+/// transformed several at a time by [`fisher_z_in_place`].
+fn transform_row(row: &mut [f32], options: &FeatureOptions) -> Result<usize, (usize, String)> {
+    let mut clipped = 0;
+    if matches!((options.values, options.transform), (ValueScale::Correlation, ValueTransform::None)) {
+        let near_one = 1.0 - FISHER_Z_CLIP;
+        for (column, &value) in row.iter().enumerate() {
+            let magnitude = f64::from(value.abs());
+            if magnitude >= near_one {
+                if magnitude > 1.0 + RANGE_TOLERANCE {
+                    return Err((column, transform(f64::from(value), options, &mut clipped).unwrap_err()));
+                }
+                clipped += 1;
+            }
+        }
+        fisher_z_in_place(row);
+        return Ok(clipped);
+    }
+    for (column, target) in row.iter_mut().enumerate() {
+        if !target.is_nan() {
+            *target =
+                transform(f64::from(*target), options, &mut clipped).map_err(|problem| (column, problem))?;
+        }
+    }
+    Ok(clipped)
+}
+
 /// Reads every participant's input into the feature matrix.
 ///
 /// Seed maps: the mask is the given mask, or the voxels finite and non-zero in every
@@ -234,9 +278,8 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
         Some(mask_path) => {
             let mask = read_volume(mask_path, "(mask)")?;
             if mask.dim != first.dim || !affines_match(&mask.affine, &first.affine) {
-                return Err(FeatureError::GridMismatch {
+                return Err(FeatureError::MaskMismatch {
                     path: mask_path.clone(),
-                    participant: "(mask)".into(),
                     what: if mask.dim != first.dim { "grid" } else { "affine" },
                     found: format!("{:?} {}", mask.dim, format_affine(&mask.affine)),
                     expected: format!("{:?} {}", first.dim, format_affine(&first.affine)),
@@ -292,29 +335,30 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
             let path = &cohort.sources[row].path;
             let participant = &cohort.participant_ids[row];
             // Participant 0 was decoded whole for the candidate mask; the others decode only the
-            // candidate voxels, straight from their stored bytes.
-            let mut gathered = Vec::new();
-            let stored: &[f32] = if row == 0 {
-                &reference.values
+            // candidate voxels, straight from their stored bytes into the row.
+            if row == 0 {
+                for (target, &voxel) in out.iter_mut().zip(&candidates) {
+                    *target = reference.values[voxel];
+                }
             } else if let Some(stack) = &stack {
-                gathered.resize(candidates.len(), 0.0f32);
-                stack.gather_frame(row, &candidates, &mut gathered);
-                &gathered
+                stack.gather_frame(row, &candidates, out);
             } else {
                 let raw = read_raw(path, participant)?;
                 check_grid_raw(&raw, reference, path, participant, first_path)?;
-                gathered.resize(candidates.len(), 0.0f32);
-                raw.gather(&candidates, &mut gathered);
-                &gathered
-            };
-            let mut clipped = 0;
+                raw.gather(&candidates, out);
+            }
             // Candidate columns this participant lacks (NaN, Inf or 0 outside its coverage).
             let mut invalid = Vec::new();
-            for (column, (target, &voxel)) in out.iter_mut().zip(&candidates).enumerate() {
-                let value = if row == 0 { stored[voxel] } else { stored[column] };
+            if ordinary_correlations(out, options) {
+                // The common case, checked in one vectorised pass: nothing to drop or clip.
+                fisher_z_in_place(out);
+                return Ok((0, invalid));
+            }
+            for (column, target) in out.iter_mut().enumerate() {
+                let value = *target;
                 if !value.is_finite() {
                     if masked {
-                        let (i, j, k) = voxel_ijk(voxel, reference.dim);
+                        let (i, j, k) = voxel_ijk(candidates[column], reference.dim);
                         return Err(FeatureError::BadValue {
                             path: path.clone(),
                             participant: participant.clone(),
@@ -325,22 +369,19 @@ fn build_voxels(cohort: &Cohort, options: &FeatureOptions) -> Result<Features, F
                     }
                     *target = f32::NAN;
                     invalid.push(column);
-                    continue;
-                }
-                if value == 0.0 && !masked {
+                } else if value == 0.0 && !masked {
                     *target = f32::NAN;
                     invalid.push(column);
-                    continue;
                 }
-                *target = transform(f64::from(value), options, &mut clipped).map_err(|problem| {
-                    let (i, j, k) = voxel_ijk(voxel, reference.dim);
-                    FeatureError::BadValue {
-                        path: path.clone(),
-                        participant: participant.clone(),
-                        problem: format!("voxel ({i}, {j}, {k}): {problem}"),
-                    }
-                })?;
             }
+            let clipped = transform_row(out, options).map_err(|(column, problem)| {
+                let (i, j, k) = voxel_ijk(candidates[column], reference.dim);
+                FeatureError::BadValue {
+                    path: path.clone(),
+                    participant: participant.clone(),
+                    problem: format!("voxel ({i}, {j}, {k}): {problem}"),
+                }
+            })?;
             Ok((clipped, invalid))
         })
         .collect();

@@ -39,6 +39,20 @@ pub enum FeatureError {
         /// The first file.
         first: PathBuf,
     },
+    /// The given mask's grid or affine differs from the maps'.
+    #[error("{path}: the --mask {what} {found} differs from the maps' {expected} ({first}); give a mask on the maps' grid and affine, or resample the maps to the mask's grid")]
+    MaskMismatch {
+        /// The mask file (for a built-in mask, its copy in the cache folder, whose path names it).
+        path: PathBuf,
+        /// "grid" or "affine".
+        what: &'static str,
+        /// The mask's value.
+        found: String,
+        /// The first map's value.
+        expected: String,
+        /// The first map.
+        first: PathBuf,
+    },
     /// A participant's matrix has another size than the first participant's.
     #[error("{path}: participant {participant}: {found} regions but {first} has {expected}; every participant needs a matrix over the same atlas")]
     RegionCountMismatch {

@@ -340,14 +340,93 @@ impl SimpleGraph {
     }
 }
 
-/// Triangles through `node`: (ordered neighbour pairs that are linked, i.e. 2 t_i; sum over those
-/// pairs of the cube root of the product of the three weights divided by `max_weight`).
-fn triangles_at(graph: &SimpleGraph, node: usize, max_weight: f64) -> (usize, f64) {
-    let (targets, weights) = graph.neighbours(node);
+/// Adjacency rows as bitsets (row i, bit j set when i and j are linked), for the binary
+/// measures of dense graphs, where word-parallel AND / OR / popcount over N / 64 words beat
+/// walking neighbour lists of length k.
+struct AdjacencyBits {
+    words: usize,
+    bits: Vec<u64>,
+}
+
+/// Memory allowed for [`AdjacencyBits`] whatever the graph (N^2 / 8 bytes: N up to 11,585);
+/// larger graphs take bitsets only where they are no bigger than the neighbour lists.
+const BITSET_BUDGET_BYTES: usize = 16 << 20;
+
+impl AdjacencyBits {
+    /// The bitset rows of `graph`, or `None` when they would take more memory than allowed.
+    fn of(graph: &SimpleGraph) -> Option<Self> {
+        let node_count = graph.node_count();
+        let words = node_count.div_ceil(64);
+        let bytes = node_count.saturating_mul(words).saturating_mul(8);
+        if bytes > BITSET_BUDGET_BYTES.max(graph.targets.len().saturating_mul(12)) {
+            return None;
+        }
+        let mut bits = vec![0u64; node_count * words];
+        for node in 0..node_count {
+            let row = &mut bits[node * words..(node + 1) * words];
+            for &target in graph.neighbours(node).0 {
+                row[target as usize / 64] |= 1 << (target % 64);
+            }
+        }
+        Some(AdjacencyBits { words, bits })
+    }
+
+    fn row(&self, node: usize) -> &[u64] {
+        &self.bits[node * self.words..(node + 1) * self.words]
+    }
+}
+
+/// Binary and weighted local clustering of every node.
+///
+/// For node i, its neighbours' cube-rooted normalised weights are scattered into a dense row;
+/// each neighbour j's list is then walked against that row, so every linked ordered pair (j, h)
+/// adds (w'_ij)^(1/3) (w'_jh)^(1/3) (w'_ih)^(1/3) (the cube root of networkx's product, taken
+/// per edge once instead of per triangle) in the same order as a sorted-list intersection.
+fn local_clustering(graph: &SimpleGraph) -> (Vec<f64>, Vec<f64>) {
+    let node_count = graph.node_count();
+    let max_weight = graph.weights.iter().copied().fold(0.0f64, f64::max);
+    let roots: Vec<f64> = graph.weights.iter().map(|&weight| (weight / max_weight).cbrt()).collect();
+    (0..node_count)
+        .into_par_iter()
+        .map_init(
+            || (vec![0.0f64; node_count], vec![0u8; node_count]),
+            |(root_to, linked_to), node| {
+                let degree = graph.degree(node);
+                if degree < 2 {
+                    return (0.0, 0.0);
+                }
+                let range = graph.offsets[node]..graph.offsets[node + 1];
+                let (targets, node_roots) = (&graph.targets[range.clone()], &roots[range]);
+                for (&target, &root) in targets.iter().zip(node_roots) {
+                    root_to[target as usize] = root;
+                    linked_to[target as usize] = 1;
+                }
+                let mut linked_pairs = 0usize;
+                let mut weighted = 0.0f64;
+                for (&neighbour, &root_ij) in targets.iter().zip(node_roots) {
+                    let range = graph.offsets[neighbour as usize]..graph.offsets[neighbour as usize + 1];
+                    for (&other, &root_jh) in graph.targets[range.clone()].iter().zip(&roots[range]) {
+                        linked_pairs += usize::from(linked_to[other as usize]);
+                        weighted += root_ij * root_jh * root_to[other as usize];
+                    }
+                }
+                for &target in targets {
+                    root_to[target as usize] = 0.0;
+                    linked_to[target as usize] = 0;
+                }
+                let ordered_pairs = (degree * (degree - 1)) as f64;
+                (linked_pairs as f64 / ordered_pairs, weighted / ordered_pairs)
+            },
+        )
+        .unzip()
+}
+
+/// Linked ordered neighbour pairs of `node` (2 t_i) by sorted-list intersection.
+fn linked_pairs_at(graph: &SimpleGraph, node: usize) -> usize {
+    let targets = graph.neighbours(node).0;
     let mut linked_pairs = 0usize;
-    let mut weighted = 0.0f64;
-    for (&neighbour, &weight_to_neighbour) in targets.iter().zip(weights) {
-        let (neighbour_targets, neighbour_weights) = graph.neighbours(neighbour as usize);
+    for &neighbour in targets {
+        let neighbour_targets = graph.neighbours(neighbour as usize).0;
         let (mut a, mut b) = (0, 0);
         while a < targets.len() && b < neighbour_targets.len() {
             match targets[a].cmp(&neighbour_targets[b]) {
@@ -355,45 +434,42 @@ fn triangles_at(graph: &SimpleGraph, node: usize, max_weight: f64) -> (usize, f6
                 Ordering::Greater => b += 1,
                 Ordering::Equal => {
                     linked_pairs += 1;
-                    // The product in networkx's order: (w_ij w_jh) w_hi.
-                    let product = (weight_to_neighbour / max_weight)
-                        * (neighbour_weights[b] / max_weight)
-                        * (weights[a] / max_weight);
-                    weighted += product.cbrt();
                     a += 1;
                     b += 1;
                 }
             }
         }
     }
-    (linked_pairs, weighted)
-}
-
-/// Binary and weighted local clustering of every node.
-fn local_clustering(graph: &SimpleGraph) -> (Vec<f64>, Vec<f64>) {
-    let max_weight = graph.weights.iter().copied().fold(0.0f64, f64::max);
-    (0..graph.node_count())
-        .into_par_iter()
-        .map(|node| {
-            let degree = graph.degree(node);
-            if degree < 2 {
-                return (0.0, 0.0);
-            }
-            let (linked_pairs, weighted) = triangles_at(graph, node, max_weight);
-            let ordered_pairs = (degree * (degree - 1)) as f64;
-            (linked_pairs as f64 / ordered_pairs, weighted / ordered_pairs)
-        })
-        .unzip()
+    linked_pairs
 }
 
 /// Transitivity: linked ordered neighbour pairs over all ordered neighbour pairs (= 3 x triangles
-/// over connected triples); 0 without triangles.
+/// over connected triples); 0 without triangles. Counts are integers, so the bitset and the
+/// list paths give the same figure.
 fn transitivity(graph: &SimpleGraph) -> f64 {
+    let bits = AdjacencyBits::of(graph);
     let counts: Vec<(usize, usize)> = (0..graph.node_count())
         .into_par_iter()
         .map(|node| {
             let degree = graph.degree(node);
-            let linked = if degree < 2 { 0 } else { triangles_at(graph, node, 1.0).0 };
+            let linked = match (&bits, degree < 2) {
+                (_, true) => 0,
+                (Some(bits), false) => {
+                    let row = bits.row(node);
+                    graph
+                        .neighbours(node)
+                        .0
+                        .iter()
+                        .map(|&neighbour| {
+                            row.iter()
+                                .zip(bits.row(neighbour as usize))
+                                .map(|(a, b)| (a & b).count_ones() as usize)
+                                .sum::<usize>()
+                        })
+                        .sum()
+                }
+                (None, false) => linked_pairs_at(graph, node),
+            };
             (linked, degree * degree.saturating_sub(1))
         })
         .collect();
@@ -506,9 +582,12 @@ impl PathSums {
 
 /// Shortest-path sums from every source: hops by breadth-first search and, if `weighted`,
 /// lengths 1 / w by Dijkstra. Sources run in parallel; their sums are added in source order so
-/// the result does not depend on the thread count.
+/// the result does not depend on the thread count. Dense graphs take the bitset search and the
+/// array Dijkstra, which give the same sums as the list search and the heap Dijkstra.
 fn all_pairs(graph: &SimpleGraph, weighted: bool) -> PathSums {
     let node_count = graph.node_count();
+    let bits = AdjacencyBits::of(graph);
+    let dense = graph.targets.len().saturating_mul(DENSE_DIJKSTRA_FRACTION) >= node_count * node_count;
     let per_source: Vec<PathSums> = (0..node_count)
         .into_par_iter()
         .map_init(
@@ -521,9 +600,16 @@ fn all_pairs(graph: &SimpleGraph, weighted: bool) -> PathSums {
                 )
             },
             |(hops, queue, lengths, heap), source| {
-                let mut sums = breadth_first(graph, source, hops, queue);
+                let mut sums = match &bits {
+                    Some(bits) => breadth_first_bits(bits, source),
+                    None => breadth_first(graph, source, hops, queue),
+                };
                 if weighted {
-                    let (total, inverse) = dijkstra(graph, source, lengths, heap);
+                    let (total, inverse) = if dense {
+                        dijkstra_dense(graph, source, lengths)
+                    } else {
+                        dijkstra(graph, source, lengths, heap)
+                    };
                     sums.lengths = total;
                     sums.inverse_lengths = inverse;
                 }
@@ -538,6 +624,95 @@ fn all_pairs(graph: &SimpleGraph, weighted: bool) -> PathSums {
         lengths: total.lengths + source.lengths,
         inverse_lengths: total.inverse_lengths + source.inverse_lengths,
     })
+}
+
+/// Graphs whose directed edge count 2E is at least N^2 / this take [`dijkstra_dense`].
+const DENSE_DIJKSTRA_FRACTION: usize = 16;
+
+/// Hop sums from `source` by a level-synchronous search over bitset rows: each level is the
+/// union of the frontier's rows minus the nodes already reached. Every node of a level adds
+/// 1 / level to the inverse sum, level by level, exactly as [`breadth_first`] adds them.
+fn breadth_first_bits(bits: &AdjacencyBits, source: usize) -> PathSums {
+    let words = bits.words;
+    let mut sums = PathSums::default();
+    let mut reached = vec![0u64; words];
+    let mut next = vec![0u64; words];
+    reached[source / 64] |= 1 << (source % 64);
+    let mut frontier = vec![source as u32];
+    let mut level = 0u32;
+    while !frontier.is_empty() {
+        level += 1;
+        next.fill(0);
+        for &node in &frontier {
+            for (word, &row) in next.iter_mut().zip(bits.row(node as usize)) {
+                *word |= row;
+            }
+        }
+        frontier.clear();
+        for (index, (word, seen)) in next.iter_mut().zip(reached.iter_mut()).enumerate() {
+            *word &= !*seen;
+            *seen |= *word;
+            let mut remaining = *word;
+            while remaining != 0 {
+                frontier.push((index * 64) as u32 + remaining.trailing_zeros());
+                remaining &= remaining - 1;
+            }
+        }
+        let count = frontier.len() as u64;
+        sums.connected_pairs += count;
+        sums.hops += count * u64::from(level);
+        let inverse = 1.0 / f64::from(level);
+        for _ in 0..count {
+            sums.inverse_hops += inverse;
+        }
+    }
+    sums
+}
+
+/// [`dijkstra`] for dense graphs: the next node is found by scanning the open nodes for the
+/// smallest (length, node), the order in which the heap pops them, so both settle the nodes in
+/// the same order and return the same sums. O(N^2 + E) per source.
+fn dijkstra_dense(graph: &SimpleGraph, source: usize, lengths: &mut [f64]) -> (f64, f64) {
+    let mut open: Vec<u32> = vec![source as u32];
+    let mut settled = Vec::new();
+    lengths[source] = 0.0;
+    let (mut total, mut inverse) = (0.0, 0.0);
+    let mut done = vec![false; lengths.len()];
+    while !open.is_empty() {
+        let mut best = 0;
+        for (position, &node) in open.iter().enumerate().skip(1) {
+            let (length, best_length) = (lengths[node as usize], lengths[open[best] as usize]);
+            if length < best_length || (length == best_length && node < open[best]) {
+                best = position;
+            }
+        }
+        let node = open.swap_remove(best) as usize;
+        let length = lengths[node];
+        done[node] = true;
+        if node != source {
+            total += length;
+            inverse += 1.0 / length;
+        }
+        settled.push(node);
+        let (targets, weights) = graph.neighbours(node);
+        for (&target, &weight) in targets.iter().zip(weights) {
+            let target = target as usize;
+            if done[target] {
+                continue;
+            }
+            let candidate = length + 1.0 / weight;
+            if candidate < lengths[target] {
+                if lengths[target] == f64::INFINITY {
+                    open.push(target as u32);
+                }
+                lengths[target] = candidate;
+            }
+        }
+    }
+    for node in settled {
+        lengths[node] = f64::INFINITY;
+    }
+    (total, inverse)
 }
 
 /// Hop counts from `source`; `hops` (all u32::MAX on entry and on return) and `queue` are
@@ -666,6 +841,62 @@ fn small_world_of(
     })
 }
 
+/// The set of undirected edges during the swaps: a bit per node pair (upper triangle of an
+/// N x N bit matrix) when that fits [`BITSET_BUDGET_BYTES`], else a hash set of pair keys. Both
+/// answer the same questions, so the swaps do not depend on which is used.
+enum EdgeSet {
+    Bits { node_count: usize, bits: Vec<u64> },
+    Hashed(HashSet<u64>),
+}
+
+impl EdgeSet {
+    fn new(node_count: usize, edges: &[(u32, u32)]) -> Self {
+        let mut set = if node_count.saturating_mul(node_count) / 8 <= BITSET_BUDGET_BYTES {
+            EdgeSet::Bits { node_count, bits: vec![0u64; (node_count * node_count).div_ceil(64)] }
+        } else {
+            EdgeSet::Hashed(HashSet::with_capacity(edges.len()))
+        };
+        for &(a, b) in edges {
+            set.set(a, b, true);
+        }
+        set
+    }
+
+    fn key(a: u32, b: u32) -> u64 {
+        (u64::from(a.min(b)) << 32) | u64::from(a.max(b))
+    }
+
+    fn contains(&self, a: u32, b: u32) -> bool {
+        match self {
+            EdgeSet::Bits { node_count, bits } => {
+                let index = a.min(b) as usize * node_count + a.max(b) as usize;
+                bits[index / 64] & (1 << (index % 64)) != 0
+            }
+            EdgeSet::Hashed(set) => set.contains(&Self::key(a, b)),
+        }
+    }
+
+    fn set(&mut self, a: u32, b: u32, linked: bool) {
+        match self {
+            EdgeSet::Bits { node_count, bits } => {
+                let index = a.min(b) as usize * *node_count + a.max(b) as usize;
+                if linked {
+                    bits[index / 64] |= 1 << (index % 64);
+                } else {
+                    bits[index / 64] &= !(1 << (index % 64));
+                }
+            }
+            EdgeSet::Hashed(set) => {
+                if linked {
+                    set.insert(Self::key(a, b));
+                } else {
+                    set.remove(&Self::key(a, b));
+                }
+            }
+        }
+    }
+}
+
 /// Rewires `edges` in place by double-edge swaps (a, b), (c, d) -> (a, d), (c, b) that keep every
 /// degree and refuse self-loops and multi-edges (Maslov & Sneppen 2002); stops after
 /// [`SWAPS_PER_EDGE`] x E successes or [`MAX_ATTEMPTS_PER_SWAP`] times as many attempts.
@@ -675,8 +906,8 @@ fn double_edge_swaps(edges: &mut [(u32, u32)], rng: &mut impl Rng) -> usize {
     if edge_count < 2 {
         return 0;
     }
-    let key = |a: u32, b: u32| (u64::from(a.min(b)) << 32) | u64::from(a.max(b));
-    let mut present: HashSet<u64> = edges.iter().map(|&(a, b)| key(a, b)).collect();
+    let node_count = edges.iter().map(|&(a, b)| a.max(b) as usize + 1).max().unwrap_or(0);
+    let mut present = EdgeSet::new(node_count, edges);
     let wanted = SWAPS_PER_EDGE * edge_count;
     let mut swaps = 0;
     for _ in 0..MAX_ATTEMPTS_PER_SWAP * wanted {
@@ -694,13 +925,13 @@ fn double_edge_swaps(edges: &mut [(u32, u32)], rng: &mut impl Rng) -> usize {
         if rng.random_bool(0.5) {
             std::mem::swap(&mut c, &mut d);
         }
-        if a == d || c == b || present.contains(&key(a, d)) || present.contains(&key(c, b)) {
+        if a == d || c == b || present.contains(a, d) || present.contains(c, b) {
             continue;
         }
-        present.remove(&key(a, b));
-        present.remove(&key(c, d));
-        present.insert(key(a, d));
-        present.insert(key(c, b));
+        present.set(a, b, false);
+        present.set(c, d, false);
+        present.set(a, d, true);
+        present.set(c, b, true);
         edges[first] = (a, d);
         edges[second] = (c, b);
         swaps += 1;
@@ -792,6 +1023,77 @@ mod tests {
         let sw = small_world_sigma(&pair, 3, 1).unwrap();
         assert!(sw.swaps > 0);
         assert!((sw.random_path_length - 1.0).abs() < 1e-12);
+    }
+
+    /// A weighted graph of 60 nodes with about a third of the pairs linked, two components and
+    /// an isolated node, weights from a fixed hash (deterministic, no seed needed).
+    fn hashed_graph() -> SimpleGraph {
+        let mut edges = Vec::new();
+        for i in 0..60usize {
+            for j in (i + 1)..60 {
+                let hash = (i * 7919 + j * 104_729) % 97;
+                let same_side = (i < 40) == (j < 40);
+                if same_side && hash < 33 && i != 59 && j != 59 {
+                    edges.push((i, j, 0.05 + (hash as f64) / 40.0));
+                }
+            }
+        }
+        SimpleGraph::from_participant_graph(&ParticipantGraph::from_edges(60, &edges))
+    }
+
+    #[test]
+    fn dense_and_sparse_paths_give_identical_sums() {
+        // The bitset search and the array Dijkstra must give bit-identical sums to the list
+        // search and the heap Dijkstra they replace on dense graphs.
+        let graph = hashed_graph();
+        let bits = AdjacencyBits::of(&graph).unwrap();
+        let node_count = graph.node_count();
+        let (mut hops, mut queue) = (vec![u32::MAX; node_count], VecDeque::new());
+        let (mut lengths, mut heap) = (vec![f64::INFINITY; node_count], BinaryHeap::new());
+        let mut reached_pairs = 0;
+        for source in 0..node_count {
+            let list = breadth_first(&graph, source, &mut hops, &mut queue);
+            let set = breadth_first_bits(&bits, source);
+            assert_eq!(list.connected_pairs, set.connected_pairs);
+            assert_eq!(list.hops, set.hops);
+            assert_eq!(list.inverse_hops.to_bits(), set.inverse_hops.to_bits());
+            let heap_sums = dijkstra(&graph, source, &mut lengths, &mut heap);
+            let array_sums = dijkstra_dense(&graph, source, &mut lengths);
+            assert_eq!(heap_sums.0.to_bits(), array_sums.0.to_bits());
+            assert_eq!(heap_sums.1.to_bits(), array_sums.1.to_bits());
+            reached_pairs += list.connected_pairs;
+        }
+        // 40 + 19 nodes in two components and node 59 alone: 40 * 39 + 19 * 18 ordered pairs.
+        assert_eq!(reached_pairs, 40 * 39 + 19 * 18);
+        for node in 0..node_count {
+            let row = bits.row(node);
+            let by_bits: usize = graph
+                .neighbours(node)
+                .0
+                .iter()
+                .map(|&j| {
+                    row.iter()
+                        .zip(bits.row(j as usize))
+                        .map(|(a, b)| (a & b).count_ones() as usize)
+                        .sum::<usize>()
+                })
+                .sum();
+            assert_eq!(by_bits, linked_pairs_at(&graph, node));
+        }
+    }
+
+    #[test]
+    fn edge_sets_agree_whatever_their_storage() {
+        let edges = [(0u32, 5u32), (3, 1), (4, 2)];
+        let mut bits = EdgeSet::new(6, &edges);
+        assert!(matches!(bits, EdgeSet::Bits { .. }));
+        let mut hashed = EdgeSet::Hashed(edges.iter().map(|&(a, b)| EdgeSet::key(a, b)).collect());
+        for set in [&mut bits, &mut hashed] {
+            assert!(set.contains(5, 0) && set.contains(1, 3) && !set.contains(0, 1));
+            set.set(1, 3, false);
+            set.set(2, 5, true);
+            assert!(!set.contains(3, 1) && set.contains(5, 2));
+        }
     }
 
     #[test]

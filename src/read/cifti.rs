@@ -1,11 +1,8 @@
 //! CIFTI-2 parcellated connectivity (`.pconn.nii`): a NIfTI-2 header, the CIFTI XML extension
 //! (code 32) naming the parcels, and an R x R matrix.
 //!
-//! NIfTI-2 header (nifti2.h): 540 bytes, `sizeof_hdr` = 540, magic `n+2\0\r\n\x1a\n` at byte 4,
-//! `datatype` (i16) at 12, `dim` (8 x i64) at 16, `vox_offset` (i64) at 168, `scl_slope` and
-//! `scl_inter` (f64) at 176 and 184, `intent_code` (i32) at 504; then 4 bytes whose first is
-//! non-zero when extensions follow, each extension an i32 size (a multiple of 16, header
-//! included), an i32 code and its data. CIFTI-2 (CIFTI-2 specification, 2014): the matrix
+//! The NIfTI-2 header and its extensions are parsed by [`super::nifti2`] (shared with NIfTI-2
+//! seed maps). CIFTI-2 (CIFTI-2 specification, 2014): the matrix
 //! dimensions are NIfTI `dim[5]` (rows) and `dim[6]` (columns), dimensions 1-4 of length 1;
 //! the XML's `MatrixIndicesMap` of type `CIFTI_INDEX_TYPE_PARCELS` applying to dimension 0 lists
 //! the row parcels in order (`Parcel Name="..."`). Values are stored with the row index varying
@@ -16,9 +13,6 @@ use std::path::Path;
 use ndarray::Array2;
 
 use super::ReadError;
-
-/// `sizeof_hdr` of a NIfTI-2 header, also its length (nifti2.h).
-const NIFTI2_HEADER_BYTES: usize = 540;
 
 /// NIfTI extension code of CIFTI XML (nifti1.h, `NIFTI_ECODE_CIFTI`).
 const CIFTI_EXTENSION_CODE: i32 = 32;
@@ -43,33 +37,6 @@ pub fn is_pconn(path: &Path) -> bool {
 
 fn invalid(path: &Path, participant: &str, problem: String) -> ReadError {
     ReadError::Invalid { path: path.to_path_buf(), participant: participant.to_string(), problem }
-}
-
-fn i16_at(bytes: &[u8], at: usize, little: bool) -> i16 {
-    let b = [bytes[at], bytes[at + 1]];
-    if little {
-        i16::from_le_bytes(b)
-    } else {
-        i16::from_be_bytes(b)
-    }
-}
-
-fn i32_at(bytes: &[u8], at: usize, little: bool) -> i32 {
-    let b: [u8; 4] = bytes[at..at + 4].try_into().expect("4 bytes");
-    if little {
-        i32::from_le_bytes(b)
-    } else {
-        i32::from_be_bytes(b)
-    }
-}
-
-fn i64_at(bytes: &[u8], at: usize, little: bool) -> i64 {
-    let b: [u8; 8] = bytes[at..at + 8].try_into().expect("8 bytes");
-    if little {
-        i64::from_le_bytes(b)
-    } else {
-        i64::from_be_bytes(b)
-    }
 }
 
 fn f64_at(bytes: &[u8], at: usize, little: bool) -> f64 {
@@ -135,37 +102,20 @@ fn parcel_names(xml: &str) -> Result<Vec<String>, String> {
 pub fn read_pconn(path: &Path, participant: &str) -> Result<Pconn, ReadError> {
     let bytes = std::fs::read(path).map_err(|source| ReadError::Io { path: path.to_path_buf(), source })?;
     let fail = |problem: String| invalid(path, participant, problem);
-    let too_short = |length: usize| {
-        fail(format!(
-            "{length} bytes, shorter than a NIfTI-2 header; the file is truncated or not a CIFTI-2 file"
-        ))
-    };
-    if bytes.len() < 4 {
-        return Err(too_short(bytes.len()));
+    if super::nifti2::byte_order(&bytes).is_none() {
+        return Err(fail(if bytes.len() < 4 {
+            format!(
+                "{} bytes, shorter than a NIfTI-2 header; the file is truncated or not a CIFTI-2 file",
+                bytes.len()
+            )
+        } else {
+            "not a NIfTI-2 header (sizeof_hdr is not 540); a .pconn.nii is CIFTI-2, written by Connectome Workbench or nibabel".into()
+        }));
     }
-    let little = match (
-        i32::from_le_bytes(bytes[..4].try_into().expect("4 bytes")),
-        i32::from_be_bytes(bytes[..4].try_into().expect("4 bytes")),
-    ) {
-        (540, _) => true,
-        (_, 540) => false,
-        _ => {
-            return Err(fail(
-                "not a NIfTI-2 header (sizeof_hdr is not 540); a .pconn.nii is CIFTI-2, written by Connectome Workbench or nibabel".into(),
-            ))
-        }
-    };
-    if bytes.len() < NIFTI2_HEADER_BYTES + 4 {
-        return Err(too_short(bytes.len()));
-    }
-    if &bytes[4..8] != b"n+2\0" {
-        return Err(fail("the NIfTI-2 magic is not 'n+2' (single-file); the file is corrupt".into()));
-    }
-    let datatype = i16_at(&bytes, 12, little);
-    let dim: Vec<i64> = (0..8).map(|axis| i64_at(&bytes, 16 + 8 * axis, little)).collect();
-    let vox_offset = i64_at(&bytes, 168, little);
-    let (slope, inter) = (f64_at(&bytes, 176, little), f64_at(&bytes, 184, little));
-    let intent = i32_at(&bytes, 504, little);
+    let header = super::nifti2::parse(&bytes).map_err(&fail)?;
+    let little = header.little_endian;
+    let (datatype, dim, intent) = (header.datatype, header.dim, header.intent_code);
+    let (slope, inter) = (header.scl_slope, header.scl_inter);
     if dim[0] != 6 || dim[1..5].iter().any(|&d| d != 1) || dim[5] < 1 || dim[6] < 1 {
         return Err(fail(format!(
             "NIfTI dim {:?} is not a CIFTI matrix (dim[0] = 6, dim[1..4] = 1, rows and columns in dim[5] and dim[6])",
@@ -178,28 +128,13 @@ pub fn read_pconn(path: &Path, participant: &str) -> Result<Pconn, ReadError> {
             "NIfTI intent code {intent} is not parcellated connectivity ({PCONN_INTENT_CODE}); strata reads .pconn.nii, not dense or time-series CIFTI"
         )));
     }
-    // Extensions: after the 4-byte extension flag, up to vox_offset.
-    let data_start =
-        usize::try_from(vox_offset).ok().filter(|&at| at >= NIFTI2_HEADER_BYTES + 4 && at <= bytes.len());
-    let data_start = data_start
-        .ok_or_else(|| fail(format!("vox_offset {vox_offset} lies outside the file; the file is corrupt")))?;
-    let mut xml = None;
-    if bytes[NIFTI2_HEADER_BYTES] != 0 {
-        let mut at = NIFTI2_HEADER_BYTES + 4;
-        while at + 8 <= data_start {
-            let size = i32_at(&bytes, at, little);
-            let code = i32_at(&bytes, at + 4, little);
-            let size =
-                usize::try_from(size).ok().filter(|&s| s >= 8 && at + s <= data_start).ok_or_else(|| {
-                    fail(format!("a NIfTI extension of size {size} runs past the data; the file is corrupt"))
-                })?;
-            if code == CIFTI_EXTENSION_CODE {
-                let text = String::from_utf8_lossy(&bytes[at + 8..at + size]);
-                xml = Some(text.trim_end_matches('\0').to_string());
-            }
-            at += size;
-        }
-    }
+    let data_start = header.data_offset(bytes.len()).map_err(&fail)?;
+    let xml = header
+        .extensions(&bytes)
+        .map_err(&fail)?
+        .into_iter()
+        .find(|(code, _)| *code == CIFTI_EXTENSION_CODE)
+        .map(|(_, data)| String::from_utf8_lossy(data).trim_end_matches('\0').to_string());
     let xml = xml.ok_or_else(|| {
         fail("no CIFTI XML extension (code 32); the file is NIfTI-2 but not CIFTI-2".into())
     })?;

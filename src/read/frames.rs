@@ -1,4 +1,5 @@
-//! A 4D NIfTI-1 series (`.nii` or `.nii.gz`) read one 3D frame at a time.
+//! A 4D NIfTI series (NIfTI-1 or single-file NIfTI-2, `.nii` or `.nii.gz`) read one 3D frame at
+//! a time.
 //!
 //! The gzip stream is decoded as it is read, so a series of any length needs only one frame's
 //! stored bytes and one frame of f32 values in memory. Header parsing, datatypes and the
@@ -11,9 +12,8 @@ use std::path::{Path, PathBuf};
 
 use nifti::NiftiHeader;
 
-use super::nifti::{
-    datatype_size, decode_values, header_affine, scaling, NIFTI1_HEADER_BYTES, NIFTI2_SIZEOF_HDR,
-};
+use super::nifti::{datatype_size, decode_values, header_affine, scaling, NIFTI1_HEADER_BYTES};
+use super::nifti2;
 use super::ReadError;
 
 /// Bytes of the read-ahead buffer under the gzip decoder: large enough that a frame is read in
@@ -56,8 +56,8 @@ impl FrameReader {
     /// Opens a 4D series and reads its header; no voxel value is decoded yet.
     ///
     /// # Errors
-    /// [`ReadError::Io`] when the file cannot be opened; [`ReadError::Invalid`] for a NIfTI-2 or
-    /// unreadable header, an image that is not 4D (a 5th dimension larger than 1 included), an
+    /// [`ReadError::Io`] when the file cannot be opened; [`ReadError::Invalid`] for an unreadable
+    /// header, an image that is not 4D (a 5th dimension larger than 1 included), an
     /// unsupported datatype or an affine that cannot be formed.
     pub fn open(path: &Path, participant: &str) -> Result<Self, ReadError> {
         let invalid = |problem: String| ReadError::Invalid {
@@ -82,18 +82,30 @@ impl FrameReader {
         read_full(&mut source, &mut head).map_err(|error| {
             invalid(format!("cannot read the NIfTI header ({error}); the file is truncated or corrupt"))
         })?;
-        if i32::from_le_bytes([head[0], head[1], head[2], head[3]]) == NIFTI2_SIZEOF_HDR {
-            return Err(invalid(
-                "is a NIfTI-2 file; strata reads NIfTI-1 BOLD series for now (convert with nibabel)".into(),
-            ));
-        }
-        // Third-party header parsing of a user file: a malformed header is an error, never a crash.
-        let header = match std::panic::catch_unwind(|| NiftiHeader::from_reader(&head[..])) {
-            Ok(Ok(header)) => header,
-            _ => return Err(invalid(
-                "cannot read the NIfTI-1 header; the file may be truncated, corrupt, or not a NIfTI image"
-                    .into(),
-            )),
+        // Bytes of the file read so far, and the offset of the first frame.
+        let (header, read, offset) = if nifti2::byte_order(&head).is_some() {
+            // NIfTI-2: the rest of its 540-byte header and the extension flag, then the image
+            // described by the equivalent NIfTI-1 header (super::nifti2::Nifti2Header::to_nifti1).
+            head.resize(nifti2::HEADER_BYTES + 4, 0);
+            read_full(&mut source, &mut head[NIFTI1_HEADER_BYTES..]).map_err(|error| {
+                invalid(format!("cannot read the NIfTI-2 header ({error}); the file is truncated or corrupt"))
+            })?;
+            let parsed = nifti2::parse(&head).map_err(invalid)?;
+            let offset = parsed.data_offset(usize::MAX).map_err(invalid)?;
+            (parsed.to_nifti1().map_err(invalid)?, head.len(), offset)
+        } else {
+            // Third-party header parsing of a user file: a malformed header is an error, never a crash.
+            let header = match std::panic::catch_unwind(|| NiftiHeader::from_reader(&head[..])) {
+                Ok(Ok(header)) => header,
+                _ => {
+                    return Err(invalid(
+                        "cannot read the NIfTI-1 header; the file may be truncated, corrupt, or not a NIfTI image"
+                            .into(),
+                    ))
+                }
+            };
+            let offset = (header.vox_offset.max(0.0) as usize).max(NIFTI1_HEADER_BYTES);
+            (header, NIFTI1_HEADER_BYTES, offset)
         };
         let rank = header.dim[0];
         if !(1..=7).contains(&rank) {
@@ -115,8 +127,7 @@ impl FrameReader {
         })?;
         let affine = header_affine(&header).map_err(invalid)?;
         // Skip the extensions between the header and the voxel data.
-        let offset = (header.vox_offset.max(0.0) as usize).max(NIFTI1_HEADER_BYTES);
-        let mut skip = vec![0u8; offset - NIFTI1_HEADER_BYTES];
+        let mut skip = vec![0u8; offset.saturating_sub(read)];
         read_full(&mut source, &mut skip).map_err(|error| {
             invalid(format!(
                 "cannot read up to vox_offset {offset} ({error}); the file is truncated or corrupt"

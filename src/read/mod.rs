@@ -14,6 +14,7 @@ pub mod mat;
 pub mod matrix;
 pub mod measures;
 pub mod nifti;
+pub mod nifti2;
 mod similarity;
 mod table;
 

@@ -1,8 +1,9 @@
-//! 3D NIfTI-1 seed maps (`.nii`, `.nii.gz`) read into f32 in file (Fortran) order, and merged
+//! 3D NIfTI-1 and NIfTI-2 seed maps (`.nii`, `.nii.gz`) read into f32 in file (Fortran) order, and merged
 //! 4D files holding one participant per volume along the 4th dimension.
 //!
 //! Any stored numeric type is converted to float with `scl_slope`/`scl_inter` applied as the
-//! NIfTI-1 standard says (slope 0 means no scaling). NIfTI-2 headers are refused with a message.
+//! NIfTI-1 standard says (slope 0 means no scaling). Single-file NIfTI-2 images (540-byte
+//! header, [`super::nifti2`]) are read the same way, through the equivalent NIfTI-1 header.
 
 use std::path::Path;
 
@@ -220,7 +221,7 @@ impl Drop for RawVolume {
 /// values converted straight to f32 in file order.
 ///
 /// # Errors
-/// Unreadable, truncated or corrupt file; NIfTI-2 or other format; an unsupported datatype;
+/// Unreadable, truncated or corrupt file; another format; an unsupported datatype;
 /// more than three dimensions (a 4D file with one volume is accepted); a header whose affine
 /// cannot be formed.
 pub fn read_volume(path: &Path, participant: &str) -> Result<Volume, ReadError> {
@@ -243,8 +244,9 @@ pub fn frame_count(path: &Path) -> Result<usize, ReadError> {
     let mut magic = Vec::with_capacity(2);
     (&mut file).take(2).read_to_end(&mut magic).map_err(io)?;
     file.rewind().map_err(io)?;
-    let limit = NIFTI1_HEADER_BYTES as u64;
-    let mut head = Vec::with_capacity(NIFTI1_HEADER_BYTES);
+    // Enough for either header (NIfTI-2's 540 bytes and its extension flag).
+    let limit = (super::nifti2::HEADER_BYTES + 4) as u64;
+    let mut head = Vec::with_capacity(limit as usize);
     let outcome = if magic == [0x1f, 0x8b] {
         flate2::read::MultiGzDecoder::new(file).take(limit).read_to_end(&mut head)
     } else {
@@ -254,19 +256,18 @@ pub fn frame_count(path: &Path) -> Result<usize, ReadError> {
     outcome.map_err(|error| {
         unreadable(format!("cannot read the NIfTI header ({error}); the file is truncated or corrupt"))
     })?;
-    if head.len() >= 4 && i32::from_le_bytes([head[0], head[1], head[2], head[3]]) == NIFTI2_SIZEOF_HDR {
-        return Err(unreadable(
-            "is a NIfTI-2 file; strata reads NIfTI-1 seed maps for now (convert with nibabel)".into(),
-        ));
-    }
-    let header =
-        match std::panic::catch_unwind(|| NiftiHeader::from_reader(&head[..])) {
+    let header = if super::nifti2::byte_order(&head).is_some() {
+        super::nifti2::parse(&head).and_then(|header| header.to_nifti1()).map_err(unreadable)?
+    } else {
+        let head = &head[..head.len().min(NIFTI1_HEADER_BYTES)];
+        match std::panic::catch_unwind(|| NiftiHeader::from_reader(head)) {
             Ok(Ok(header)) => header,
             _ => return Err(unreadable(
                 "cannot read the NIfTI-1 header; the file may be truncated, corrupt, or not a NIfTI image"
                     .into(),
             )),
-        };
+        }
+    };
     let rank = header.dim[0];
     if !(4..=7).contains(&rank) {
         return Ok(1);
@@ -382,9 +383,6 @@ pub fn read_raw(path: &Path, participant: &str) -> Result<RawVolume, ReadError> 
 /// `sizeof_hdr` of a NIfTI-1 header, also the header's length in bytes (nifti1.h).
 pub(crate) const NIFTI1_HEADER_BYTES: usize = 348;
 
-/// `sizeof_hdr` of a NIfTI-2 header (nifti2.h).
-pub(crate) const NIFTI2_SIZEOF_HDR: i32 = 540;
-
 fn parse_raw(path: &Path, participant: &str, stacked: bool) -> Result<RawVolume, ReadError> {
     let bytes = match read_bytes(path) {
         Ok(bytes) => bytes,
@@ -401,25 +399,29 @@ fn parse_raw(path: &Path, participant: &str, stacked: bool) -> Result<RawVolume,
             ))
         }
     };
-    if bytes.len() >= 4 && i32::from_le_bytes([bytes[0], bytes[1], bytes[2], bytes[3]]) == NIFTI2_SIZEOF_HDR {
-        return Err(invalid(
-            path,
-            participant,
-            "is a NIfTI-2 file; strata reads NIfTI-1 seed maps for now (convert with nibabel)".into(),
-        ));
-    }
-    // The NIfTI decoder is third-party code fed with user files: a malformed header must become
-    // an error naming the file, never a crash.
-    let parsed =
-        std::panic::catch_unwind(|| NiftiHeader::from_reader(&bytes[..bytes.len().min(NIFTI1_HEADER_BYTES)]));
-    let header = match parsed {
-        Ok(Ok(header)) => header,
-        Ok(Err(error)) => {
-            return Err(invalid(path, participant, format!(
-                "cannot read the NIfTI-1 header ({error}); the file may be truncated, corrupt, or not a NIfTI image"
-            )))
-        }
-        Err(_) => return Err(invalid(path, participant, "the NIfTI header is malformed; check the file with a NIfTI viewer".into())),
+    let (header, data_offset) = if super::nifti2::byte_order(&bytes).is_some() {
+        // NIfTI-2 (540-byte header): described by the equivalent NIfTI-1 header from here on.
+        let nifti2 = super::nifti2::parse(&bytes).map_err(|problem| invalid(path, participant, problem))?;
+        let offset =
+            nifti2.data_offset(bytes.len()).map_err(|problem| invalid(path, participant, problem))?;
+        (nifti2.to_nifti1().map_err(|problem| invalid(path, participant, problem))?, offset)
+    } else {
+        // The NIfTI decoder is third-party code fed with user files: a malformed header must
+        // become an error naming the file, never a crash.
+        let parsed = std::panic::catch_unwind(|| {
+            NiftiHeader::from_reader(&bytes[..bytes.len().min(NIFTI1_HEADER_BYTES)])
+        });
+        let header = match parsed {
+            Ok(Ok(header)) => header,
+            Ok(Err(error)) => {
+                return Err(invalid(path, participant, format!(
+                    "cannot read the NIfTI-1 header ({error}); the file may be truncated, corrupt, or not a NIfTI image"
+                )))
+            }
+            Err(_) => return Err(invalid(path, participant, "the NIfTI header is malformed; check the file with a NIfTI viewer".into())),
+        };
+        let offset = (header.vox_offset.max(0.0) as usize).max(NIFTI1_HEADER_BYTES);
+        (header, offset)
     };
     let rank = header.dim[0];
     if !(1..=7).contains(&rank) {
@@ -453,7 +455,7 @@ fn parse_raw(path: &Path, participant: &str, stacked: bool) -> Result<RawVolume,
         )
     })?;
     let voxels = dim[0] * dim[1] * dim[2];
-    let offset = (header.vox_offset.max(0.0) as usize).max(NIFTI1_HEADER_BYTES);
+    let offset = data_offset;
     let needed = voxels.saturating_mul(size).saturating_mul(frames);
     if bytes.len() < offset.saturating_add(needed) {
         return Err(invalid(

@@ -18,6 +18,10 @@ pub struct InputDigest {
     pub bytes: u64,
     /// Hex SHA-256 of the file's bytes.
     pub sha256: String,
+    /// For a built-in atlas or mask (`path` is then its name as given): the built-in file,
+    /// as `<file name> (strata <version>)`; `strata atlases NAME` prints the same digest.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub built_in: Option<String>,
 }
 
 /// What produced a run's outputs.
@@ -39,6 +43,9 @@ pub struct Provenance {
     pub inputs: Vec<InputDigest>,
     /// Wall-clock seconds per stage, in pipeline order.
     pub stage_seconds: Vec<(String, f64)>,
+    /// Peak resident memory of the process after each stage (bytes, in pipeline order), where
+    /// the system reports it (Linux).
+    pub stage_peak_memory_bytes: Vec<(String, u64)>,
 }
 
 /// Hex SHA-256 of a file and its size.

@@ -543,8 +543,12 @@ pub fn read_stability(summary: &Value) -> Option<StabilitySummary> {
 
 /// The atlas of the run (provenance `parameters.atlas`), when its table can still be read.
 fn read_atlas(provenance: &Value, notes: &mut Vec<String>) -> Option<Atlas> {
-    let path = PathBuf::from(provenance.get("parameters")?.get("atlas")?.as_str()?);
-    let table = match read::read_table(&path) {
+    let value = PathBuf::from(provenance.get("parameters")?.get("atlas")?.as_str()?);
+    // A built-in name resolves to the table of this strata version.
+    let table = match crate::atlas::atlas_path(Some(&value))
+        .map_err(|error| error.to_string())
+        .and_then(|path| read::read_table(&path.unwrap_or(value)).map_err(|error| error.to_string()))
+    {
         Ok(table) => table,
         Err(error) => {
             notes.push(format!("atlas table not readable now ({error}); profiles shown by region"));

@@ -115,6 +115,10 @@ def main():
         image.header.set_sform(affine, code=4)
         image.header.set_qform(affine, code=4)
         path = save(image, name)
+        if participant == "sub-01":
+            # The same series as a single-file NIfTI-2 image (540-byte header).
+            (OUT / "nifti2").mkdir(exist_ok=True)
+            save(nib.Nifti2Image(volume.astype(np.float32), image.affine, header=nib.Nifti2Header()), "nifti2/sub-01_task-rest_bold.nii")
         back = nib.load(path)
         participants[participant] = {"file": name, "data": np.asarray(back.get_fdata(), dtype=np.float64), "affine": back.affine}
         rows = [
