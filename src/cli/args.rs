@@ -190,10 +190,11 @@ pub struct ConnectivityArgs {
         help_heading = "Seed or regions"
     )]
     pub seed_label: Option<i64>,
-    /// Atlas label volume on the BOLD grid (whole numbers, 0 = background). Alone: an R x R
+    /// Atlas label volume on the BOLD grid (whole numbers, 0 = background), a file or a built-in
+    /// atlas name (`strata atlases`; their volumes are on the MNI 2 mm grid). Alone: an R x R
     /// matrix over its non-zero labels (in increasing order); with --seed-label: that label's
     /// seed map.
-    #[arg(long, value_name = "FILE", help_heading = "Seed or regions")]
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Seed or regions")]
     pub atlas_volume: Option<PathBuf>,
 
     /// What the outputs hold: r (Pearson r; `strata run` applies Fisher z) or z (Fisher z =

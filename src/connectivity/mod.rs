@@ -305,8 +305,12 @@ pub fn match_files(options: &ConnectivityOptions) -> Result<(Vec<ParticipantFile
 pub fn run(options: &ConnectivityOptions, log: &Log) -> Result<ConnectivitySummary, Error> {
     let started = Instant::now();
     let (participants, unused_tables) = match_files(options)?;
-    for path in &unused_tables {
-        log.note(&format!("{}: no BOLD series of its participant in --bold; ignored", path.display()));
+    if let Some(first) = unused_tables.first() {
+        log.note(&format!(
+            "{} table(s) matched by --confounds or --censor belong to no series of --bold and are ignored (first: {})",
+            unused_tables.len(),
+            first.display()
+        ));
     }
     let output = OutputFolder::prepare(&options.out, options.force)?;
 
@@ -314,7 +318,9 @@ pub fn run(options: &ConnectivityOptions, log: &Log) -> Result<ConnectivitySumma
     let (shared, labels) = match &options.target {
         Target::Mask(path) => (Some(GridVolume::read(path, "(seed mask)")?), None),
         Target::Label { atlas, .. } | Target::Regions(atlas) => {
-            let volume = GridVolume::read(atlas, "(atlas volume)")?;
+            // A file of that name, else a built-in atlas's label volume (`strata atlases`).
+            let path = crate::atlas::volume_path(atlas, "--atlas-volume")?;
+            let volume = GridVolume::read(&path, "(atlas volume)")?;
             let labels = seed::labels_of(&volume)?;
             (Some(volume), Some(labels))
         }
