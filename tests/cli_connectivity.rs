@@ -182,6 +182,11 @@ fn seeds_outside_the_data_or_the_grid_and_wrong_atlases_are_refused() {
         "{message}"
     );
 
+    // A built-in atlas name resolves to its label volume (MNI 2 mm grid), here on the wrong grid.
+    let message = fails(dir.path(), &["--atlas-volume", "dosenbach160"], 3);
+    assert!(message.contains("participant sub-01: grid 6x7x5 differs from --atlas-volume"), "{message}");
+    assert!(message.contains("of 91x109x91; resample --atlas-volume to the BOLD grid"), "{message}");
+
     // A map of fractions is not a label volume.
     std::fs::copy(data("nifti/float32.nii.gz"), dir.path().join("fractions.nii.gz")).unwrap();
     let message = fails(dir.path(), &["--atlas-volume", "fractions.nii.gz"], 3);
