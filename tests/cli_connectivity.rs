@@ -277,3 +277,45 @@ fn an_existing_output_folder_needs_force_and_outputs_read_back_in_run() {
     let report = String::from_utf8_lossy(&output.stdout);
     assert!(report.contains("2 participants"), "{report}\n{}", String::from_utf8_lossy(&output.stderr));
 }
+
+#[test]
+fn outputs_do_not_depend_on_the_thread_count() {
+    let dir = tempfile::tempdir().unwrap();
+    setup(dir.path());
+    std::fs::copy(data("bold/sub-02_task-rest_bold.nii"), dir.path().join("sub-02_task-rest_bold.nii"))
+        .unwrap();
+    std::fs::copy(
+        data("bold/sub-02_task-rest_confounds.tsv"),
+        dir.path().join("sub-02_task-rest_confounds.tsv"),
+    )
+    .unwrap();
+    for threads in ["1", "2"] {
+        let output = strata(
+            &[
+                "connectivity",
+                "--bold",
+                "sub-*_bold.nii*",
+                "--confounds",
+                "sub-*_confounds.tsv",
+                "--censor-column",
+                "keep",
+                "--atlas-volume",
+                "atlas_labels.nii.gz",
+                "--seed-label",
+                "9",
+                "--out",
+                threads,
+                "--threads",
+                threads,
+                "--quiet",
+            ],
+            dir.path(),
+        );
+        assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    }
+    for name in ["sub-01_stat-r_seedmap.nii.gz", "sub-02_stat-r_seedmap.nii.gz", "connectivity.tsv"] {
+        let one = std::fs::read(dir.path().join("1").join(name)).unwrap();
+        let two = std::fs::read(dir.path().join("2").join(name)).unwrap();
+        assert!(one == two, "{name} differs between 1 and 2 threads");
+    }
+}
