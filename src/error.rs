@@ -30,6 +30,9 @@ pub enum Error {
     /// New participants could not be assigned to an earlier run's communities.
     #[error(transparent)]
     Assign(#[from] crate::assign::AssignError),
+    /// Seed maps or region matrices could not be computed from BOLD series.
+    #[error(transparent)]
+    Connectivity(#[from] crate::connectivity::ConnectivityError),
     /// A built-in atlas could not be resolved, cached or exported.
     #[error(transparent)]
     Atlas(#[from] crate::atlas::AtlasError),
@@ -87,7 +90,9 @@ impl Error {
     pub fn exit_code(&self) -> i32 {
         match self {
             Error::Config(_) => exit_code::USAGE,
-            Error::Read(_) | Error::Feature(_) | Error::CheckFailed { .. } => exit_code::INPUT,
+            Error::Read(_) | Error::Feature(_) | Error::Connectivity(_) | Error::CheckFailed { .. } => {
+                exit_code::INPUT
+            }
             Error::Community(_) | Error::Null(_) | Error::Stability(_) => exit_code::ANALYSIS,
             Error::Assign(crate::assign::AssignError::InvalidConfidence { .. }) => exit_code::USAGE,
             Error::Assign(_) => exit_code::INPUT,

@@ -25,6 +25,8 @@
 //! * [`assign`] and [`power`]: placing new participants into a run's communities, and planning a
 //!   study by simulation.
 //! * [`pipeline`]: the one place that runs the stages in order.
+//! * [`connectivity`]: before the pipeline, seed maps or region matrices from preprocessed 4D
+//!   BOLD series (`strata connectivity`), named so `strata run` reads them.
 //!
 //! strata is research software. Subgroup assignments and maps are not diagnoses and are not for
 //! individual clinical decisions.
@@ -38,6 +40,7 @@ pub mod atlas;
 pub mod check;
 pub mod communities;
 pub mod config;
+pub mod connectivity;
 pub mod demo;
 pub mod error;
 pub mod features;

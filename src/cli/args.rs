@@ -76,6 +76,11 @@ pub enum Command {
     /// or write one's files into a folder.
     #[command(after_help = ATLASES_EXAMPLE)]
     Atlases(AtlasesArgs),
+    /// Compute seed maps or region matrices from preprocessed 4D BOLD series, one per
+    /// participant (confounds regressed out, censored frames dropped), named `sub-<label>_...` so
+    /// `strata run --inputs` reads them.
+    #[command(after_help = CONNECTIVITY_EXAMPLE)]
+    Connectivity(Box<ConnectivityArgs>),
 }
 
 const ATLASES_EXAMPLE: &str = "\
@@ -104,6 +109,193 @@ pub struct AtlasesArgs {
     /// With --export: replace files of the same name that differ.
     #[arg(long, requires = "export")]
     pub force: bool,
+}
+
+const CONNECTIVITY_EXAMPLE: &str = "\
+Examples:
+  strata connectivity --bold 'derivatives/sub-*_bold.nii.gz' --confounds 'derivatives/sub-*_confounds.tsv' \\
+      --confound-columns trans_x,trans_y,trans_z,rot_x,rot_y,rot_z --censor-column keep \\
+      --seed-sphere 0,-52,26 --radius 6 --out seedmaps
+  strata connectivity --bold 'derivatives/sub-*_bold.nii.gz' --atlas-volume atlas_labels.nii.gz --out matrices
+  strata run --inputs 'seedmaps/sub-*_seedmap.nii.gz' --participants participants.tsv ...
+
+Outputs (in --out): sub-<label>_stat-<r|z>_seedmap.nii.gz (or _conn.npy) with a .json sidecar per
+participant, connectivity.tsv (frames kept, regressors, degrees of freedom, constant voxels), and
+regions.tsv for matrices (usable as `strata run --atlas`). Every series is read once, one batch of
+frames at a time; participants run in parallel (--threads).";
+
+/// Flags of `strata connectivity`.
+#[derive(Debug, Args)]
+pub struct ConnectivityArgs {
+    /// The 4D BOLD series (NIfTI-1 or NIfTI-2, .nii or .nii.gz): a glob pattern or paths (repeat the flag or
+    /// separate with commas), one per participant, named `sub-<label>_...`
+    #[arg(long, value_name = "GLOB", required = true, value_delimiter = ',', help_heading = "Inputs")]
+    pub bold: Vec<String>,
+    /// Confounds tables (TSV with a header, one row per frame), one per participant, matched by
+    /// `sub-<label>`. Leading n/a of a column (derivatives) take the column's mean. Without it only
+    /// the mean is removed.
+    #[arg(long, value_name = "GLOB", value_delimiter = ',', help_heading = "Nuisance")]
+    pub confounds: Vec<String>,
+    /// The confound columns to regress out. Default: every numeric column of the confounds
+    /// table except --censor-column.
+    #[arg(
+        long,
+        value_name = "COL,...",
+        value_delimiter = ',',
+        requires = "confounds",
+        help_heading = "Nuisance"
+    )]
+    pub confound_columns: Option<Vec<String>>,
+    /// Censoring column: 1 keeps a frame, 0 drops it before regression and correlation. Read
+    /// from the confounds table, or from --censor tables when given.
+    #[arg(long, value_name = "COLUMN", help_heading = "Nuisance")]
+    pub censor_column: Option<String>,
+    /// Separate censoring tables (TSV with a header holding --censor-column), one per
+    /// participant, matched by `sub-<label>`.
+    #[arg(
+        long,
+        value_name = "GLOB",
+        value_delimiter = ',',
+        requires = "censor_column",
+        help_heading = "Nuisance"
+    )]
+    pub censor: Vec<String>,
+
+    /// Seed: a mask on the BOLD grid (NIfTI); the seed series is the mean of its non-zero voxels.
+    #[arg(long, value_name = "FILE", group = "target", help_heading = "Seed or regions")]
+    pub seed_mask: Option<PathBuf>,
+    /// Seed: a sphere centred at X,Y,Z in mm (the BOLD series' world space) of --radius mm; the
+    /// seed series is the mean of the voxels whose centre lies within it.
+    #[arg(
+        long,
+        value_name = "X,Y,Z",
+        value_delimiter = ',',
+        num_args = 1,
+        group = "target",
+        requires = "radius",
+        allow_hyphen_values = true,
+        help_heading = "Seed or regions"
+    )]
+    pub seed_sphere: Option<Vec<f64>>,
+    /// Radius of --seed-sphere in mm.
+    #[arg(long, value_name = "MM", requires = "seed_sphere", help_heading = "Seed or regions")]
+    pub radius: Option<f64>,
+    /// Seed: the voxels of this label of --atlas-volume.
+    #[arg(
+        long,
+        value_name = "NUM",
+        group = "target",
+        requires = "atlas_volume",
+        allow_negative_numbers = true,
+        help_heading = "Seed or regions"
+    )]
+    pub seed_label: Option<i64>,
+    /// Atlas label volume on the BOLD grid (whole numbers, 0 = background), a file or a built-in
+    /// atlas name (`strata atlases`; their volumes are on the MNI 2 mm grid). Alone: an R x R
+    /// matrix over its non-zero labels (in increasing order); with --seed-label: that label's
+    /// seed map.
+    #[arg(long, value_name = "NAME|FILE", help_heading = "Seed or regions")]
+    pub atlas_volume: Option<PathBuf>,
+
+    /// What the outputs hold: r (Pearson r; `strata run` applies Fisher z) or z (Fisher z =
+    /// atanh r; read with `strata run --values z`).
+    #[arg(long, value_enum, value_name = "STAT", default_value = "r", help_heading = "Output")]
+    pub statistic: crate::connectivity::Statistic,
+    /// Output folder (created; refused if it exists and is not empty, unless --force).
+    #[arg(long, value_name = "DIR", help_heading = "Output")]
+    pub out: PathBuf,
+    /// Replace an existing output folder (the old one is removed only after the new one is complete).
+    #[arg(long, help_heading = "Output")]
+    pub force: bool,
+    /// Worker threads, one participant each (0 = one per core).
+    #[arg(long, value_name = "NUM", default_value_t = 0, help_heading = "Execution")]
+    pub threads: usize,
+}
+
+impl ConnectivityArgs {
+    /// Builds the validated options.
+    pub fn into_options(self) -> Result<crate::connectivity::ConnectivityOptions, ConfigError> {
+        use crate::connectivity::{ConnectivityOptions, Target};
+        let invalid = |flag: &str, message: String| ConfigError::Invalid { flag: flag.into(), message };
+        let target = match (self.seed_mask, self.seed_sphere, self.seed_label, self.atlas_volume) {
+            (Some(mask), None, None, atlas) => {
+                if atlas.is_some() {
+                    return Err(invalid(
+                        "--atlas-volume",
+                        "is used with --seed-label or alone (region matrix), not with --seed-mask".into(),
+                    ));
+                }
+                Target::Mask(mask)
+            }
+            (None, Some(centre), None, atlas) => {
+                if atlas.is_some() {
+                    return Err(invalid(
+                        "--atlas-volume",
+                        "is used with --seed-label or alone (region matrix), not with --seed-sphere".into(),
+                    ));
+                }
+                let [x, y, z] = centre[..] else {
+                    return Err(invalid(
+                        "--seed-sphere",
+                        format!("{} value(s); give the centre as X,Y,Z in mm, for example 0,-52,26", centre.len()),
+                    ));
+                };
+                if ![x, y, z].iter().all(|v| v.is_finite()) {
+                    return Err(invalid("--seed-sphere", "coordinates must be finite numbers (mm)".into()));
+                }
+                let radius = self.radius.unwrap_or(f64::NAN);
+                if !(radius.is_finite() && radius > 0.0) {
+                    return Err(invalid("--radius", format!("{radius} must be a positive number of mm")));
+                }
+                Target::Sphere { centre: [x, y, z], radius }
+            }
+            (None, None, Some(label), Some(atlas)) => {
+                if label <= 0 {
+                    return Err(invalid(
+                        "--seed-label",
+                        format!("{label}: labels are positive whole numbers (0 is the background)"),
+                    ));
+                }
+                Target::Label { atlas, label }
+            }
+            (None, None, None, Some(atlas)) => Target::Regions(atlas),
+            _ => {
+                return Err(invalid(
+                    "--seed-mask",
+                    "give the seed or the regions: --seed-mask FILE, --seed-sphere X,Y,Z with --radius MM, \
+                     --seed-label NUM with --atlas-volume FILE, or --atlas-volume FILE alone for a region matrix"
+                        .into(),
+                ))
+            }
+        };
+        if self.censor_column.is_some() && self.confounds.is_empty() && self.censor.is_empty() {
+            return Err(invalid(
+                "--censor-column",
+                "names a column of the confounds tables (--confounds) or of --censor tables; give one of them".into(),
+            ));
+        }
+        if let Some(columns) = &self.confound_columns {
+            if columns.iter().any(|column| column.trim().is_empty()) {
+                return Err(invalid(
+                    "--confound-columns",
+                    "an empty column name; separate names with commas".into(),
+                ));
+            }
+        }
+        Ok(ConnectivityOptions {
+            bold: self.bold,
+            confounds: self.confounds,
+            confound_columns: self
+                .confound_columns
+                .map(|columns| columns.into_iter().map(|column| column.trim().to_string()).collect()),
+            censor_column: self.censor_column,
+            censor: self.censor,
+            target,
+            statistic: self.statistic,
+            out: self.out,
+            force: self.force,
+        })
+    }
 }
 
 const POWER_EXAMPLE: &str = "\

@@ -157,6 +157,13 @@ pub fn run_parsed(parsed: Parsed) -> Result<(), Error> {
             print!("{}", report.text());
             Ok(())
         }
+        Command::Connectivity(connectivity) => {
+            install_threads(connectivity.threads)?;
+            let options = connectivity.into_options()?;
+            let summary = crate::connectivity::run(&options, &log)?;
+            print!("{}", summary.text());
+            Ok(())
+        }
         Command::Report(report) => {
             let path = crate::report::write_report(&report.run_dir)?;
             println!("{}", path.display());

@@ -14,7 +14,7 @@ pub mod write;
 pub use naming::{contrast_label, sanitise_label, MapName, MapNameBuilder};
 pub use write::{
     contrast_fields, groups_field, write_bytes_atomically, write_map, write_map_with_dof, write_mask,
-    NIFTI_GZIP_LEVEL,
+    write_volume, VolumeIntent, NIFTI_GZIP_LEVEL,
 };
 
 use std::path::PathBuf;
@@ -74,6 +74,8 @@ pub enum WriteError {
 pub mod intent {
     /// `NIFTI_INTENT_NONE`: no statistical meaning declared.
     pub const NONE: i16 = 0;
+    /// `NIFTI_INTENT_CORREL`: a correlation coefficient; `intent_p1` = degrees of freedom.
+    pub const CORREL: i16 = 2;
     /// `NIFTI_INTENT_TTEST`: Student's t; `intent_p1` = degrees of freedom.
     pub const TTEST: i16 = 3;
     /// `NIFTI_INTENT_FTEST`: Fisher's F; `intent_p1` = numerator, `intent_p2` = denominator dof.

@@ -276,6 +276,80 @@ fn write_nifti_map(
 ) -> Result<(), WriteError> {
     let [nx, ny, nz] = space.dim;
     let voxel_count = nx * ny * nz;
+    let mut flat = vec![statistic.fill_value(); voxel_count];
+    for (&voxel, &value) in space.mask.iter().zip(values) {
+        let Some(slot) = flat.get_mut(voxel) else {
+            return Err(WriteError::Mismatch {
+                path: path.to_path_buf(),
+                found: format!("mask voxel index {voxel}"),
+                expected: format!("indices below {voxel_count} for the {nx}x{ny}x{nz} grid"),
+            });
+        };
+        *slot = value;
+    }
+    let (intent_p1, intent_p2) = match (statistic, dof) {
+        (Statistic::T, [dof]) => (*dof as f32, 0.0),
+        (Statistic::F, [numerator, denominator]) => (*numerator as f32, *denominator as f32),
+        _ => (0.0, 0.0),
+    };
+    let intent = VolumeIntent {
+        code: statistic.intent_code(!dof.is_empty()),
+        p1: intent_p1,
+        p2: intent_p2,
+        name: statistic.intent_name(),
+        stem,
+    };
+    write_volume(path, &space.reference_header, space.dim, flat, &intent)
+}
+
+/// What a written volume holds, for its NIfTI-1 header.
+#[derive(Debug, Clone, Copy)]
+pub struct VolumeIntent<'a> {
+    /// `intent_code` (see [`super::intent`]).
+    pub code: i16,
+    /// `intent_p1` (for example the degrees of freedom of a t or correlation map).
+    pub p1: f32,
+    /// `intent_p2`.
+    pub p2: f32,
+    /// `intent_name` (at most 15 bytes are kept); also named in `descrip`.
+    pub name: &'a str,
+    /// The file stem, named in `descrip`.
+    pub stem: &'a str,
+}
+
+/// Writes one 3D float32 volume on the grid of `reference_header` (any 4D dimension of the
+/// reference is dropped), atomically.
+///
+/// The header starts from the reference: pixdim, spatial units, sform (code and rows) and qform
+/// (code, quaternion, offsets, qfac) are copied unchanged, so the volume lands in the same world
+/// space as the input in every reader; datatype float32, `scl_slope` 1, `scl_inter` 0,
+/// `vox_offset` 352, magic `n+1`; intent code, parameters and name from `intent`;
+/// `cal_min`/`cal_max` the finite range of the values; `descrip` names strata, the intent name
+/// and the stem (at most 79 bytes); slice timing fields cleared. gzip level
+/// [`NIFTI_GZIP_LEVEL`] when the name ends in `.gz`.
+///
+/// # Arguments
+/// * `path` - the file to write (`.nii` or `.nii.gz`).
+/// * `reference_header` - the header of the input on whose grid the values lie.
+/// * `dim` - grid dimensions (i, j, k).
+/// * `flat` - one value per voxel in file (Fortran) order, index i + nx * (j + ny * k).
+/// * `intent` - what the values are.
+///
+/// # Errors
+/// [`WriteError::Mismatch`] when the grid is empty, too large for NIfTI-1 or does not match
+/// the value count; [`WriteError::Encode`] when the writer fails.
+///
+/// # Complexity
+/// O(V) for V voxels; gzip dominates.
+pub fn write_volume(
+    path: &Path,
+    reference_header: &nifti::NiftiHeader,
+    dim: [usize; 3],
+    flat: Vec<f32>,
+    intent: &VolumeIntent<'_>,
+) -> Result<(), WriteError> {
+    let [nx, ny, nz] = dim;
+    let voxel_count = nx * ny * nz;
     let mismatch =
         |found: String, expected: String| WriteError::Mismatch { path: path.to_path_buf(), found, expected };
     if voxel_count == 0 || [nx, ny, nz].iter().any(|&d| d > usize::from(u16::MAX)) {
@@ -284,41 +358,36 @@ fn write_nifti_map(
             "a non-empty grid of at most 65535 voxels per axis (NIfTI-1)".to_string(),
         ));
     }
-    let mut flat = vec![statistic.fill_value(); voxel_count];
-    for (&voxel, &value) in space.mask.iter().zip(values) {
-        let Some(slot) = flat.get_mut(voxel) else {
-            return Err(mismatch(
-                format!("mask voxel index {voxel}"),
-                format!("indices below {voxel_count} for the {nx}x{ny}x{nz} grid"),
-            ));
-        };
-        *slot = value;
+    if flat.len() != voxel_count {
+        return Err(mismatch(
+            format!("{} values", flat.len()),
+            format!("one per voxel of the {nx}x{ny}x{nz} grid ({voxel_count})"),
+        ));
     }
+    let (low, high) = flat
+        .iter()
+        .filter(|v| v.is_finite())
+        .fold((f32::INFINITY, f32::NEG_INFINITY), |(lo, hi), &v| (lo.min(v), hi.max(v)));
     // Fortran order: flat index i + nx * (j + ny * k) is element [i, j, k].
     let volume = Array3::from_shape_vec((nx, ny, nz).f(), flat)
         .map_err(|error| mismatch(error.to_string(), "a volume matching the grid".to_string()))?;
 
-    let mut header = space.reference_header.clone();
+    let mut header = reference_header.clone();
     header.endianness = nifti::Endianness::Little;
-    header.intent_code = statistic.intent_code(!dof.is_empty());
-    (header.intent_p1, header.intent_p2) = match (statistic, dof) {
-        (Statistic::T, [dof]) => (*dof as f32, 0.0),
-        (Statistic::F, [numerator, denominator]) => (*numerator as f32, *denominator as f32),
-        _ => (0.0, 0.0),
-    };
+    header.dim[0] = 3;
+    header.dim[4..].fill(1);
+    header.intent_code = intent.code;
+    header.intent_p1 = intent.p1;
+    header.intent_p2 = intent.p2;
     header.intent_p3 = 0.0;
     header.intent_name = [0; 16];
-    let intent_name = statistic.intent_name().as_bytes();
+    let intent_name = intent.name.as_bytes();
     let intent_len = intent_name.len().min(INTENT_NAME_TEXT_BYTES);
     header.intent_name[..intent_len].copy_from_slice(&intent_name[..intent_len]);
-    let mut descrip = format!("strata {} {} {stem}", crate::VERSION, statistic.intent_name()).into_bytes();
+    let mut descrip = format!("strata {} {} {}", crate::VERSION, intent.name, intent.stem).into_bytes();
     descrip.truncate(DESCRIP_TEXT_BYTES);
     descrip.resize(80, 0);
     header.descrip = descrip;
-    let (low, high) = values
-        .iter()
-        .filter(|v| v.is_finite())
-        .fold((f32::INFINITY, f32::NEG_INFINITY), |(lo, hi), &v| (lo.min(v), hi.max(v)));
     (header.cal_min, header.cal_max) = if low <= high { (low, high) } else { (0.0, 0.0) };
     header.glmin = 0;
     header.glmax = 0;

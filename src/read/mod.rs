@@ -8,6 +8,7 @@
 pub mod cifti;
 mod cohort;
 mod error;
+pub mod frames;
 pub mod hdf5;
 pub mod mat;
 pub mod matrix;
