@@ -212,40 +212,96 @@ fn accumulate(
     voxels: usize,
     width: usize,
 ) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::arch::is_x86_feature_detected!("avx512f") {
+            // SAFETY: the CPU supports AVX-512F (checked just above).
+            unsafe { accumulate_avx512(sums, batch, first, coefficients, filled, voxels, width) };
+            return;
+        }
+        if std::arch::is_x86_feature_detected!("avx2") {
+            // SAFETY: the CPU supports AVX2 (checked just above).
+            unsafe { accumulate_avx2(sums, batch, first, coefficients, filled, voxels, width) };
+            return;
+        }
+    }
+    accumulate_lanes(sums, batch, first, coefficients, filled, voxels, width);
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f")]
+fn accumulate_avx512(
+    sums: &mut [f64],
+    batch: &[f32],
+    first: &[f32],
+    coefficients: &[f64],
+    filled: usize,
+    voxels: usize,
+    width: usize,
+) {
+    accumulate_lanes(sums, batch, first, coefficients, filled, voxels, width);
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+fn accumulate_avx2(
+    sums: &mut [f64],
+    batch: &[f32],
+    first: &[f32],
+    coefficients: &[f64],
+    filled: usize,
+    voxels: usize,
+    width: usize,
+) {
+    accumulate_lanes(sums, batch, first, coefficients, filled, voxels, width);
+}
+
+/// The body of [`accumulate`], inlined into each target-feature variant so the compiler
+/// vectorises it at that width; every voxel's sums take the same operations in the same order
+/// at any width, so the results are identical.
+#[inline(always)]
+fn accumulate_lanes(
+    sums: &mut [f64],
+    batch: &[f32],
+    first: &[f32],
+    coefficients: &[f64],
+    filled: usize,
+    voxels: usize,
+    width: usize,
+) {
     if filled == 0 {
         return;
     }
-    let mut shifted = vec![0.0f64; filled * VOXEL_BLOCK];
+    // Whole blocks as fixed-size arrays, so the loops below have constant bounds and vectorise.
+    let mut shifted = vec![[0.0f64; VOXEL_BLOCK]; filled];
     let mut start = 0;
     while start < voxels {
         let len = VOXEL_BLOCK.min(voxels - start);
         let base = &first[start..start + len];
         let mut any = false;
-        for frame in 0..filled {
+        for (frame, target) in shifted.iter_mut().enumerate() {
             let values = &batch[frame * voxels + start..frame * voxels + start + len];
-            let target = &mut shifted[frame * VOXEL_BLOCK..frame * VOXEL_BLOCK + len];
             for ((out, &value), &origin) in target.iter_mut().zip(values).zip(base) {
                 *out = f64::from(value) - f64::from(origin);
             }
-            any |= target.iter().any(|&value| value != 0.0);
+            // No early exit: a fold over the whole block vectorises, `any` would not.
+            any |= target[..len].iter().fold(false, |seen, &value| seen | (value != 0.0));
         }
         if any {
-            let block = |frame: usize| &shifted[frame * VOXEL_BLOCK..frame * VOXEL_BLOCK + len];
-            // Rows 0..width take coefficient * y; row `width` (y'y) takes y * y.
+            // Rows 0..width take coefficient * y; row `width` (y'y) takes y * y. Lanes past
+            // `len` (the grid's last block) compute on stale values and are never stored.
             for row in 0..=width {
                 let target = &mut sums[row * voxels + start..row * voxels + start + len];
+                let mut lanes = [0.0f64; VOXEL_BLOCK];
+                lanes[..len].copy_from_slice(target);
                 let coefficient = |frame: usize| coefficients[frame * width + row];
                 let mut frame = 0;
                 while frame + 4 <= filled {
-                    let values = target
-                        .iter_mut()
-                        .zip(block(frame))
-                        .zip(block(frame + 1))
-                        .zip(block(frame + 2))
-                        .zip(block(frame + 3));
+                    let (a, b, c, d) =
+                        (&shifted[frame], &shifted[frame + 1], &shifted[frame + 2], &shifted[frame + 3]);
                     if row == width {
-                        for ((((sum, &a), &b), &c), &d) in values {
-                            *sum += a * a + b * b + c * c + d * d;
+                        for v in 0..VOXEL_BLOCK {
+                            lanes[v] += a[v] * a[v] + b[v] * b[v] + c[v] * c[v] + d[v] * d[v];
                         }
                     } else {
                         let (c0, c1, c2, c3) = (
@@ -254,25 +310,25 @@ fn accumulate(
                             coefficient(frame + 2),
                             coefficient(frame + 3),
                         );
-                        for ((((sum, &a), &b), &c), &d) in values {
-                            *sum += c0 * a + c1 * b + c2 * c + c3 * d;
+                        for v in 0..VOXEL_BLOCK {
+                            lanes[v] += c0 * a[v] + c1 * b[v] + c2 * c[v] + c3 * d[v];
                         }
                     }
                     frame += 4;
                 }
-                for frame in frame..filled {
-                    let values = target.iter_mut().zip(block(frame));
+                for (frame, a) in shifted.iter().enumerate().skip(frame) {
                     if row == width {
-                        for (sum, &a) in values {
-                            *sum += a * a;
+                        for v in 0..VOXEL_BLOCK {
+                            lanes[v] += a[v] * a[v];
                         }
                     } else {
                         let c0 = coefficient(frame);
-                        for (sum, &a) in values {
-                            *sum += c0 * a;
+                        for v in 0..VOXEL_BLOCK {
+                            lanes[v] += c0 * a[v];
                         }
                     }
                 }
+                target.copy_from_slice(&lanes[..len]);
             }
         }
         start += len;
