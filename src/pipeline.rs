@@ -877,11 +877,14 @@ fn compare_and_write(
         }
         let permutation_input = (&rows_a[..], &rows_b[..], covariates.as_deref().unwrap_or(&[]));
         write_permutation_maps(config, features, permutation_input, &scope, maps_dir, &contrast_sidecar)?;
+        // t and q feed only the edge tables (top edges, network blocks); voxel maps keep the
+        // difference alone, for the correlation between scopes, to spare memory.
+        let edges = matches!(space, FeatureSpace::Edges(_));
         effects.push((
             scope.clone(),
             comparison.difference.clone(),
-            comparison.t.clone(),
-            comparison.q.clone(),
+            if edges { comparison.t.clone() } else { Vec::new() },
+            if edges { comparison.q.clone() } else { Vec::new() },
         ));
         let significant = comparison.q.iter().filter(|&&q| q < config.alpha).count();
         let (peak_index, peak_t) = comparison
@@ -904,6 +907,8 @@ fn compare_and_write(
             peak_t,
         });
     }
+    write_contrast_summaries(config, features, &effects, maps_dir.parent().unwrap_or(maps_dir))?;
+    drop(effects);
     write_interaction(
         config,
         features,
@@ -913,7 +918,6 @@ fn compare_and_write(
         maps_dir,
         warnings,
     )?;
-    write_contrast_summaries(config, features, &effects, maps_dir.parent().unwrap_or(maps_dir))?;
     Ok(summaries)
 }
 
@@ -1309,7 +1313,14 @@ fn compare_with_covariates(
         )?;
     }
     write_permutation_maps(config, features, (rows_a, rows_b, columns), scope, maps_dir, &sidecar)?;
-    effects.push((scope.to_string(), test.estimate.clone(), test.t.clone(), test.q.clone()));
+    // As in the Welch path: t and q are kept for edge tables only.
+    let edges = matches!(features.space, FeatureSpace::Edges(_));
+    effects.push((
+        scope.to_string(),
+        test.estimate.clone(),
+        if edges { test.t.clone() } else { Vec::new() },
+        if edges { test.q.clone() } else { Vec::new() },
+    ));
     let significant = test.q.iter().filter(|&&q| q < config.alpha).count();
     let (peak_index, peak_t) = test
         .t

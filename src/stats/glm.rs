@@ -244,27 +244,35 @@ pub(crate) fn factorise(design: &Design, row_count: usize) -> Result<Factors, St
     Ok(Factors { q, r_inverse, unscaled_covariance, columns })
 }
 
+/// Blocks computed in parallel before their results are copied into place: enough to keep
+/// every core busy, few enough that the blocks' own copies stay a small fraction of the k x F
+/// estimates (the final array is filled wave by wave instead of after every block is done).
+const BLOCKS_PER_WAVE: usize = 8;
+
 /// Estimates (k x F, parameter-major) and residual sums of squares of every feature.
 pub(crate) fn project(factors: &Factors, data: &[f32], width: usize, rows: &[usize]) -> (Vec<f64>, Vec<f64>) {
     let k = factors.columns;
-    let mut per_block: Vec<(Vec<f64>, Vec<f64>)> = (0..width.div_ceil(FEATURE_BLOCK))
-        .into_par_iter()
-        .map(|block| {
-            let start = block * FEATURE_BLOCK;
-            let len = FEATURE_BLOCK.min(width - start);
-            project_block(factors, data, width, rows, start, len)
-        })
-        .collect();
+    let blocks = width.div_ceil(FEATURE_BLOCK);
     let mut coefficients = vec![0.0f64; k * width];
     let mut residual_ss = Vec::with_capacity(width);
-    for (block, (block_coefficients, block_rss)) in per_block.iter_mut().enumerate() {
-        let start = block * FEATURE_BLOCK;
-        let len = block_rss.len();
-        for j in 0..k {
-            coefficients[j * width + start..j * width + start + len]
-                .copy_from_slice(&block_coefficients[j * len..(j + 1) * len]);
+    for wave in (0..blocks).step_by(BLOCKS_PER_WAVE) {
+        let results: Vec<(Vec<f64>, Vec<f64>)> = (wave..(wave + BLOCKS_PER_WAVE).min(blocks))
+            .into_par_iter()
+            .map(|block| {
+                let start = block * FEATURE_BLOCK;
+                let len = FEATURE_BLOCK.min(width - start);
+                project_block(factors, data, width, rows, start, len)
+            })
+            .collect();
+        for (offset, (block_coefficients, block_rss)) in results.iter().enumerate() {
+            let start = (wave + offset) * FEATURE_BLOCK;
+            let len = block_rss.len();
+            for j in 0..k {
+                coefficients[j * width + start..j * width + start + len]
+                    .copy_from_slice(&block_coefficients[j * len..(j + 1) * len]);
+            }
+            residual_ss.extend_from_slice(block_rss);
         }
-        residual_ss.extend_from_slice(block_rss);
     }
     (coefficients, residual_ss)
 }
