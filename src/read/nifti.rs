@@ -167,6 +167,10 @@ fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
         if buffer.len() < hint {
             buffer.resize(hint, 0);
         }
+        if let Some(size) = inflate_whole(&input, &mut buffer[..hint]) {
+            buffer.truncate(size);
+            return Ok(buffer);
+        }
         let mut decoder = flate2::bufread::MultiGzDecoder::new(&input[..]);
         let mut filled = 0;
         loop {
@@ -213,6 +217,52 @@ fn read_bytes(path: &Path) -> std::io::Result<Vec<u8>> {
         }
     });
     result
+}
+
+/// A libdeflate decompressor, one per reading thread.
+struct Inflater(std::ptr::NonNull<libdeflate_sys::libdeflate_decompressor>);
+
+impl Drop for Inflater {
+    fn drop(&mut self) {
+        // SAFETY: the pointer came from libdeflate_alloc_decompressor and is freed only here.
+        unsafe { libdeflate_sys::libdeflate_free_decompressor(self.0.as_ptr()) };
+    }
+}
+
+thread_local! {
+    static INFLATER: Option<Inflater> = {
+        // SAFETY: allocation has no preconditions; a null result (out of memory) is checked.
+        std::ptr::NonNull::new(unsafe { libdeflate_sys::libdeflate_alloc_decompressor() }).map(Inflater)
+    };
+}
+
+/// Decodes `input`, a whole gzip file, into `out` in one call with libdeflate (which checks
+/// the CRC-32 and size of RFC 1952's trailer), when the file is exactly one gzip member whose
+/// data fills `out` (sized from the trailer). Returns the decoded size, or `None` for anything
+/// else (several members, a trailer that disagrees, damaged data): the caller then decodes
+/// with the streaming decoder, which handles every case and words the errors.
+pub fn inflate_whole(input: &[u8], out: &mut [u8]) -> Option<usize> {
+    INFLATER.with(|inflater| {
+        let inflater = inflater.as_ref()?;
+        let (mut consumed, mut written) = (0usize, 0usize);
+        // SAFETY: the decompressor is this thread's own; the pointers and lengths describe the
+        // two live slices, which do not overlap; libdeflate writes at most out.len() bytes.
+        let result = unsafe {
+            libdeflate_sys::libdeflate_gzip_decompress_ex(
+                inflater.0.as_ptr(),
+                input.as_ptr().cast(),
+                input.len(),
+                out.as_mut_ptr().cast(),
+                out.len(),
+                &mut consumed,
+                &mut written,
+            )
+        };
+        (result == libdeflate_sys::libdeflate_result_LIBDEFLATE_SUCCESS
+            && consumed == input.len()
+            && written == out.len())
+        .then_some(written)
+    })
 }
 
 impl Drop for RawVolume {
