@@ -319,3 +319,57 @@ fn outputs_do_not_depend_on_the_thread_count() {
         assert!(one == two, "{name} differs between 1 and 2 threads");
     }
 }
+
+#[test]
+fn a_built_in_atlas_gives_region_matrices_with_its_names_and_networks() {
+    // A short series on the 91 x 109 x 91 grid of 2 mm voxels the built-in label volumes use
+    // (affine [[-2,0,0,90],[0,2,0,-126],[0,0,2,-72]]: atlases/mni152/README.md); every voxel
+    // varies differently over the 10 frames, so every region has a non-constant mean series.
+    let dir = tempfile::tempdir().unwrap();
+    let (nx, ny, nz, frames) = (91usize, 109usize, 91usize, 10usize);
+    let series = ndarray::Array4::<f32>::from_shape_fn((nx, ny, nz, frames), |(x, y, z, t)| {
+        let phase = ((x * 7 + y * 3 + z) % 17) as f32;
+        (t as f32 * (1.0 + phase / 9.0)).sin() + 0.1 * phase
+    });
+    let header = nifti::NiftiHeader {
+        dim: [4, nx as u16, ny as u16, nz as u16, frames as u16, 1, 1, 1],
+        pixdim: [1.0, 2.0, 2.0, 2.0, 2.0, 1.0, 1.0, 1.0],
+        sform_code: 4,
+        srow_x: [-2.0, 0.0, 0.0, 90.0],
+        srow_y: [0.0, 2.0, 0.0, -126.0],
+        srow_z: [0.0, 0.0, 2.0, -72.0],
+        ..Default::default()
+    };
+    nifti::writer::WriterOptions::new(dir.path().join("sub-07_task-rest_bold.nii"))
+        .reference_header(&header)
+        .write_nifti(&series)
+        .unwrap();
+    let output = strata(
+        &["connectivity", "--bold", "sub-*_bold.nii", "--atlas-volume", "dosenbach160", "--out", "out"],
+        dir.path(),
+    );
+    assert!(output.status.success(), "{}", String::from_utf8_lossy(&output.stderr));
+    // Names and networks as the shipped table gives them (atlases/dosenbach160/dosenbach160_regions.tsv,
+    // from nilearn 0.14.1's package data): index 1 is vmPFC in the default network.
+    let regions = std::fs::read_to_string(dir.path().join("out/regions.tsv")).unwrap();
+    let lines: Vec<&str> = regions.lines().collect();
+    assert_eq!(lines[0], "index\tname\tnetwork\tlabel\tvoxels");
+    assert_eq!(lines.len(), 161, "160 regions");
+    assert!(lines[1].starts_with("1\tvmPFC\tdefault\t1\t"), "{}", lines[1]);
+    let table = std::fs::read_to_string(data("../../atlases/dosenbach160/dosenbach160_regions.tsv")).unwrap();
+    for (ours, source) in lines.iter().skip(1).zip(table.lines().skip(1)) {
+        let ours: Vec<&str> = ours.split('\t').collect();
+        let source: Vec<&str> = source.split('\t').collect();
+        assert_eq!(&ours[..3], &source[..3], "index, name and network as in the atlas table");
+    }
+    let written: Vec<String> = std::fs::read_dir(dir.path().join("out"))
+        .unwrap()
+        .map(|entry| entry.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|name| name.ends_with("_conn.npy"))
+        .collect();
+    assert_eq!(written.len(), 1, "{written:?}");
+    assert!(written[0].starts_with("sub-07_stat-"), "{written:?}");
+    let matrix: ndarray::Array2<f32> =
+        ndarray_npy::read_npy(dir.path().join("out").join(&written[0])).unwrap();
+    assert_eq!(matrix.dim(), (160, 160));
+}

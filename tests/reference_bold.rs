@@ -114,7 +114,7 @@ fn seed_maps_and_region_matrices_equal_numpy() {
         if case["kind"] == "matrix" {
             let regions = std::fs::read_to_string(out.join("regions.tsv")).unwrap();
             let labels: Vec<String> =
-                regions.lines().skip(1).map(|line| line.split('\t').nth(2).unwrap().to_string()).collect();
+                regions.lines().skip(1).map(|line| line.split('\t').nth(3).unwrap().to_string()).collect();
             let expected: Vec<String> =
                 case["labels"].as_array().unwrap().iter().map(|v| v.to_string()).collect();
             assert_eq!(labels, expected, "{name}: regions in increasing label order");

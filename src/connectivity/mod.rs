@@ -360,7 +360,11 @@ pub fn run(options: &ConnectivityOptions, log: &Log) -> Result<ConnectivitySumma
     drop(progress);
     let results: Vec<ParticipantResult> = results.into_iter().collect::<Result<_, Error>>()?;
 
-    write_tables(output.path(), &results, regions.as_ref())?;
+    let names = match &options.target {
+        Target::Regions(atlas) => region_names(atlas)?,
+        _ => None,
+    };
+    write_tables(output.path(), &results, regions.as_ref(), names.as_ref())?;
     write_json(&output.path().join("dataset_description.json"), &dataset_description())?;
     let out = output.commit()?;
     Ok(ConnectivitySummary {
@@ -577,8 +581,40 @@ fn sidecar(item: &Prepared, options: &ConnectivityOptions, result: &ParticipantR
     })
 }
 
-/// `connectivity.tsv` (one row per participant) and, for matrices, `regions.tsv`.
-fn write_tables(dir: &Path, results: &[ParticipantResult], regions: Option<&Regions>) -> Result<(), Error> {
+/// Region name and network by atlas label.
+type RegionNames = std::collections::HashMap<i64, (String, String)>;
+
+/// Region names and networks by label, when the atlas volume is a built-in atlas (not a file
+/// of that name) whose region table numbers its regions by the volume's labels (`index`).
+fn region_names(atlas: &Path) -> Result<Option<RegionNames>, Error> {
+    let name = atlas.to_string_lossy();
+    if atlas.exists() || crate::atlas::find(&name).is_none() {
+        return Ok(None);
+    }
+    let Some(table_path) = crate::atlas::atlas_path(Some(atlas))? else { return Ok(None) };
+    let table = crate::read::read_table(&table_path)?;
+    let (Some(index), Some(names)) = (table.column("index"), table.column("name")) else { return Ok(None) };
+    let networks = table.column("network");
+    Ok(Some(
+        index
+            .iter()
+            .enumerate()
+            .filter_map(|(row, index)| {
+                let network = networks.as_ref().map_or("n/a", |column| column[row]);
+                Some((index.trim().parse::<i64>().ok()?, (names[row].to_string(), network.to_string())))
+            })
+            .collect(),
+    ))
+}
+
+/// `connectivity.tsv` (one row per participant) and, for matrices, `regions.tsv` (with the
+/// atlas's region names and networks where `names` gives them, else `label-N` and n/a).
+fn write_tables(
+    dir: &Path,
+    results: &[ParticipantResult],
+    regions: Option<&Regions>,
+    names: Option<&RegionNames>,
+) -> Result<(), Error> {
     let kind = if regions.is_some() { "regions" } else { "seed_voxels" };
     let mut table = format!(
         "participant_id\tframes\tframes_kept\tregressors\tdof\t{kind}\tconstant\tnonfinite\toutput\n"
@@ -599,9 +635,12 @@ fn write_tables(dir: &Path, results: &[ParticipantResult], regions: Option<&Regi
     }
     write_bytes_atomically(&dir.join("connectivity.tsv"), table.as_bytes())?;
     if let Some(regions) = regions {
-        let mut table = String::from("index\tname\tlabel\tvoxels\n");
+        let mut table = String::from("index\tname\tnetwork\tlabel\tvoxels\n");
         for (row, (label, count)) in regions.labels.iter().zip(&regions.voxel_counts).enumerate() {
-            table.push_str(&format!("{}\tlabel-{label}\t{label}\t{count}\n", row + 1));
+            let (name, network) = names
+                .and_then(|names| names.get(label).cloned())
+                .unwrap_or_else(|| (format!("label-{label}"), "n/a".to_string()));
+            table.push_str(&format!("{}\t{name}\t{network}\t{label}\t{count}\n", row + 1));
         }
         write_bytes_atomically(&dir.join("regions.tsv"), table.as_bytes())?;
     }
