@@ -17,6 +17,7 @@
 
 use rand::seq::SliceRandom;
 use rand::Rng;
+use std::borrow::Cow;
 
 use super::louvain::renumber;
 use crate::graph::ParticipantGraph;
@@ -67,30 +68,36 @@ fn plogp(x: f64) -> f64 {
 
 /// The undirected flow network one optimisation level works on: node flows and, per stored
 /// direction, the flow on the link; flow that stays inside a node is carried in its flow only.
+///
+/// The graph of a trial borrows the participant graph's links and scales their weights to flow
+/// as it reads them (`w * link_scale`, the same product a precomputed copy would hold), so
+/// concurrent trials on one dense graph share its arrays instead of each holding a copy;
+/// aggregated and sub-networks own theirs with a scale of 1.
 #[derive(Debug, Clone)]
-struct FlowGraph {
+struct FlowGraph<'a> {
     flow: Vec<f64>,
-    offsets: Vec<usize>,
-    targets: Vec<u32>,
-    link_flow: Vec<f64>,
+    offsets: Cow<'a, [usize]>,
+    targets: Cow<'a, [u32]>,
+    link_weights: Cow<'a, [f64]>,
+    link_scale: f64,
     /// Flow on the node's links to other nodes (its exit flow when alone in a module).
     out: Vec<f64>,
 }
 
-impl FlowGraph {
-    fn from_graph(graph: &ParticipantGraph) -> Self {
+impl<'a> FlowGraph<'a> {
+    fn from_graph(graph: &'a ParticipantGraph) -> Self {
         let n = graph.node_count();
         let strength: Vec<f64> = (0..n)
             .map(|node| graph.neighbours(node).1.iter().sum::<f64>() + graph.self_loops[node])
             .collect();
         let total: f64 = strength.iter().sum();
         let scale = if total > 0.0 { 1.0 / total } else { 0.0 };
-        let link_flow: Vec<f64> = graph.weights.iter().map(|&w| w * scale).collect();
         let mut flow_graph = FlowGraph {
             flow: strength.iter().map(|&s| s * scale).collect(),
-            offsets: graph.offsets.clone(),
-            targets: graph.targets.clone(),
-            link_flow,
+            offsets: Cow::Borrowed(&graph.offsets),
+            targets: Cow::Borrowed(&graph.targets),
+            link_weights: Cow::Borrowed(&graph.weights),
+            link_scale: scale,
             out: Vec::new(),
         };
         flow_graph.out = flow_graph.outflows();
@@ -103,7 +110,11 @@ impl FlowGraph {
 
     fn links(&self, node: usize) -> impl Iterator<Item = (usize, f64)> + '_ {
         let range = self.offsets[node]..self.offsets[node + 1];
-        self.targets[range.clone()].iter().map(|&t| t as usize).zip(self.link_flow[range].iter().copied())
+        let scale = self.link_scale;
+        self.targets[range.clone()]
+            .iter()
+            .map(|&t| t as usize)
+            .zip(self.link_weights[range].iter().map(move |&w| w * scale))
     }
 
     fn outflows(&self) -> Vec<f64> {
@@ -112,7 +123,7 @@ impl FlowGraph {
 
     /// The graph of modules: `labels` 0..count per node; links inside a module disappear (their
     /// flow stays in the module's node flow).
-    fn aggregate(&self, labels: &[usize], count: usize) -> FlowGraph {
+    fn aggregate(&self, labels: &[usize], count: usize) -> FlowGraph<'static> {
         let mut flow = vec![0.0; count];
         let mut rows: Vec<std::collections::BTreeMap<usize, f64>> = vec![Default::default(); count];
         for node in 0..self.len() {
@@ -135,14 +146,21 @@ impl FlowGraph {
             }
             offsets[a + 1] = targets.len();
         }
-        let mut graph = FlowGraph { flow, offsets, targets, link_flow, out: Vec::new() };
+        let mut graph = FlowGraph {
+            flow,
+            offsets: Cow::Owned(offsets),
+            targets: Cow::Owned(targets),
+            link_weights: Cow::Owned(link_flow),
+            link_scale: 1.0,
+            out: Vec::new(),
+        };
         graph.out = graph.outflows();
         graph
     }
 
     /// The sub-network of the nodes in `members` (sorted), with their flows and the links among
     /// them only.
-    fn subgraph(&self, members: &[usize]) -> FlowGraph {
+    fn subgraph(&self, members: &[usize]) -> FlowGraph<'static> {
         let mut local = std::collections::HashMap::with_capacity(members.len());
         for (index, &node) in members.iter().enumerate() {
             local.insert(node, index);
@@ -161,9 +179,10 @@ impl FlowGraph {
         }
         let mut graph = FlowGraph {
             flow: members.iter().map(|&node| self.flow[node]).collect(),
-            offsets,
-            targets,
-            link_flow,
+            offsets: Cow::Owned(offsets),
+            targets: Cow::Owned(targets),
+            link_weights: Cow::Owned(link_flow),
+            link_scale: 1.0,
             out: Vec::new(),
         };
         graph.out = graph.outflows();
