@@ -15,7 +15,7 @@ use std::time::Instant;
 
 use rayon::prelude::*;
 
-const GRID: [usize; 3] = [91, 109, 91];
+const GRID: [usize; 3] = strata::demo::MNI_2MM_GRID;
 const FRAMES: usize = 600;
 /// Ellipsoid semi-axes (voxels) giving about 230,000 in-brain voxels on the 2 mm grid, as the
 /// stage benchmark's maps.
@@ -27,14 +27,7 @@ const GZIP_LEVEL: u32 = 1;
 /// extension flag), made by the nifti crate's writer for a one-voxel image and given the
 /// series' dimensions.
 fn series_header(dir: &Path) -> Vec<u8> {
-    let mut header = strata::demo::grid_header(GRID, 16, "strata benchmark BOLD (synthetic)");
-    header.pixdim[1..4].copy_from_slice(&[2.0, 2.0, 2.0]);
-    header.srow_x = [-2.0, 0.0, 0.0, 90.0];
-    header.srow_y = [0.0, 2.0, 0.0, -126.0];
-    header.srow_z = [0.0, 0.0, 2.0, -72.0];
-    header.quatern_x = 90.0;
-    header.quatern_y = -126.0;
-    header.quatern_z = -72.0;
+    let mut header = strata::demo::mni_2mm_header(16, "strata benchmark BOLD (synthetic)");
     header.pixdim[4] = 2.0;
     header.xyzt_units = 2 | 8; // mm, seconds (nifti1.h)
     let probe = dir.join(".header-probe.nii");

@@ -21,7 +21,7 @@ use strata::similarity::{pearson, standardise_rows};
 /// Ellipsoid semi-axes (voxels) giving about 230,000 in-mask voxels on the 2 mm grid
 /// (4/3 pi a b c = 230,300 for 34 x 42 x 38.5).
 const SEMI_AXES: [f64; 3] = [34.0, 42.0, 38.5];
-const GRID_2MM: [usize; 3] = [91, 109, 91];
+const GRID_2MM: [usize; 3] = strata::demo::MNI_2MM_GRID;
 
 fn generate_matrices(dir: &Path) {
     let scenario = Scenario { participant_count: 1000, region_count: 333, ..Scenario::default() };
@@ -37,14 +37,7 @@ fn generate_maps(dir: &Path) {
         strata::demo::generate_matrix_values(&Scenario { region_count: 4, ..scenario.clone() });
     std::fs::create_dir_all(dir.join("maps")).unwrap();
     write_participants_tsv(&participants, &dir.join("participants.tsv")).unwrap();
-    let mut header = strata::demo::grid_header(GRID_2MM, 16, "strata benchmark map (synthetic)");
-    header.pixdim[1..4].copy_from_slice(&[2.0, 2.0, 2.0]);
-    header.srow_x = [-2.0, 0.0, 0.0, 90.0];
-    header.srow_y = [0.0, 2.0, 0.0, -126.0];
-    header.srow_z = [0.0, 0.0, 2.0, -72.0];
-    header.quatern_x = 90.0;
-    header.quatern_y = -126.0;
-    header.quatern_z = -72.0;
+    let header = strata::demo::mni_2mm_header(16, "strata benchmark map (synthetic)");
     let centre = GRID_2MM.map(|size| (size as f64 - 1.0) / 2.0);
     participants.par_iter().enumerate().for_each(|(index, participant)| {
         let mut rng = strata::seed::rng(7, "bench-maps", &[index as u64]);

@@ -949,6 +949,25 @@ pub fn grid_header(grid: [usize; 3], datatype: i16, description: &str) -> nifti:
     header
 }
 
+/// The 91 x 109 x 91 grid of 2 mm voxels of MNI-space maps (the grid of the built-in
+/// `mni152-2mm` mask and label volumes: atlases/mni152/README.md).
+pub const MNI_2MM_GRID: [usize; 3] = [91, 109, 91];
+
+/// [`grid_header`] on [`MNI_2MM_GRID`] with 2 mm voxels and the affine
+/// [[-2,0,0,90],[0,2,0,-126],[0,0,2,-72]] in the sform (the qform carries the same offsets and
+/// [`grid_header`]'s flip of the first axis): common practice for 2 mm MNI maps.
+pub fn mni_2mm_header(datatype: i16, description: &str) -> nifti::NiftiHeader {
+    let mut header = grid_header(MNI_2MM_GRID, datatype, description);
+    header.pixdim[1..4].copy_from_slice(&[2.0, 2.0, 2.0]);
+    header.srow_x = [-2.0, 0.0, 0.0, 90.0];
+    header.srow_y = [0.0, 2.0, 0.0, -126.0];
+    header.srow_z = [0.0, 0.0, 2.0, -72.0];
+    header.quatern_x = 90.0;
+    header.quatern_y = -126.0;
+    header.quatern_z = -72.0;
+    header
+}
+
 /// Writes a 3D float32 volume (indexed `[i, j, k]`) as gzip NIfTI-1 with `header`.
 ///
 /// # Errors

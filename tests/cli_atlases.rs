@@ -279,16 +279,12 @@ fn unknown_or_misplaced_names_list_the_built_ins() {
 const MNI_2MM: [usize; 3] = [91, 109, 91];
 
 fn write_map(path: &Path, grid: [usize; 3], mni: bool, volume: &Array3<f32>) {
-    let mut header = strata::demo::grid_header(grid, 16, "test map");
-    if mni {
-        header.pixdim[1..4].copy_from_slice(&[2.0, 2.0, 2.0]);
-        header.srow_x = [-2.0, 0.0, 0.0, 90.0];
-        header.srow_y = [0.0, 2.0, 0.0, -126.0];
-        header.srow_z = [0.0, 0.0, 2.0, -72.0];
-        header.quatern_x = 90.0;
-        header.quatern_y = -126.0;
-        header.quatern_z = -72.0;
-    }
+    let header = if mni {
+        assert_eq!(grid, strata::demo::MNI_2MM_GRID);
+        strata::demo::mni_2mm_header(16, "test map")
+    } else {
+        strata::demo::grid_header(grid, 16, "test map")
+    };
     strata::demo::write_volume_f32(path, &header, volume).unwrap();
 }
 

@@ -154,11 +154,17 @@ pub fn seed_map(
         kept_index += 1;
         filled += 1;
         if filled == FRAME_BATCH {
-            accumulate(&mut sums, &batch, &first, &coefficients, filled, voxels, width);
+            accumulate(
+                &mut sums,
+                &Batch { values: &batch, first: &first, coefficients: &coefficients, filled, voxels, width },
+            );
             filled = 0;
         }
     }
-    accumulate(&mut sums, &batch, &first, &coefficients, filled, voxels, width);
+    accumulate(
+        &mut sums,
+        &Batch { values: &batch, first: &first, coefficients: &coefficients, filled, voxels, width },
+    );
     drop(batch);
 
     let seed_residual = seed_squares - seed_projection.iter().map(|p| p * p).sum::<f64>();
@@ -198,77 +204,60 @@ pub fn seed_map(
     Ok(SeedMap { r, constant_voxels, nonfinite_voxels })
 }
 
-/// Adds a batch of `filled` frames to the per-voxel sums (see [`seed_map`]).
-///
-/// A block whose shifted values are all zero in this batch (background: a voxel equal to its
-/// first kept value) adds nothing and is skipped, which is exact. Frames are taken four at a
-/// time so each sum is loaded and stored once per four frames.
-fn accumulate(
-    sums: &mut [f64],
-    batch: &[f32],
-    first: &[f32],
-    coefficients: &[f64],
+/// One batch of decoded frames and what the update needs with it.
+struct Batch<'a> {
+    /// `filled` frames of `voxels` values each, frame-major.
+    values: &'a [f32],
+    /// The first kept frame, subtracted from every value (the shift).
+    first: &'a [f32],
+    /// Per frame, `width` coefficients: the basis row, then the shifted seed value.
+    coefficients: &'a [f64],
     filled: usize,
     voxels: usize,
     width: usize,
-) {
+}
+
+/// Adds a batch of frames to the per-voxel sums (see [`seed_map`]).
+///
+/// A block whose shifted values are all zero in this batch (background: a voxel equal to its
+/// first kept value) adds nothing and is skipped, which is exact. Frames are taken four at a
+/// time so each sum is loaded and stored once per four frames. Every voxel's sums take the same
+/// operations in the same order at any vector width, so the widest of AVX-512, AVX2 and SSE2
+/// the CPU offers gives identical results.
+fn accumulate(sums: &mut [f64], batch: &Batch) {
     #[cfg(target_arch = "x86_64")]
     {
         if std::arch::is_x86_feature_detected!("avx512f") {
             // SAFETY: the CPU supports AVX-512F (checked just above).
-            unsafe { accumulate_avx512(sums, batch, first, coefficients, filled, voxels, width) };
+            unsafe { accumulate_avx512(sums, batch) };
             return;
         }
         if std::arch::is_x86_feature_detected!("avx2") {
             // SAFETY: the CPU supports AVX2 (checked just above).
-            unsafe { accumulate_avx2(sums, batch, first, coefficients, filled, voxels, width) };
+            unsafe { accumulate_avx2(sums, batch) };
             return;
         }
     }
-    accumulate_lanes(sums, batch, first, coefficients, filled, voxels, width);
+    accumulate_lanes(sums, batch);
 }
 
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx512f")]
-fn accumulate_avx512(
-    sums: &mut [f64],
-    batch: &[f32],
-    first: &[f32],
-    coefficients: &[f64],
-    filled: usize,
-    voxels: usize,
-    width: usize,
-) {
-    accumulate_lanes(sums, batch, first, coefficients, filled, voxels, width);
+fn accumulate_avx512(sums: &mut [f64], batch: &Batch) {
+    accumulate_lanes(sums, batch);
 }
 
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
-fn accumulate_avx2(
-    sums: &mut [f64],
-    batch: &[f32],
-    first: &[f32],
-    coefficients: &[f64],
-    filled: usize,
-    voxels: usize,
-    width: usize,
-) {
-    accumulate_lanes(sums, batch, first, coefficients, filled, voxels, width);
+fn accumulate_avx2(sums: &mut [f64], batch: &Batch) {
+    accumulate_lanes(sums, batch);
 }
 
 /// The body of [`accumulate`], inlined into each target-feature variant so the compiler
-/// vectorises it at that width; every voxel's sums take the same operations in the same order
-/// at any width, so the results are identical.
+/// vectorises it at that width.
 #[inline(always)]
-fn accumulate_lanes(
-    sums: &mut [f64],
-    batch: &[f32],
-    first: &[f32],
-    coefficients: &[f64],
-    filled: usize,
-    voxels: usize,
-    width: usize,
-) {
+fn accumulate_lanes(sums: &mut [f64], batch: &Batch) {
+    let Batch { values: batch, first, coefficients, filled, voxels, width } = *batch;
     if filled == 0 {
         return;
     }
