@@ -123,27 +123,56 @@ impl<'a> FlowGraph<'a> {
 
     /// The graph of modules: `labels` 0..count per node; links inside a module disappear (their
     /// flow stays in the module's node flow).
+    ///
+    /// Each module's row is summed in a dense scratch row, visiting its nodes in ascending order
+    /// and their links in stored order, and written out with targets ascending: every link flow
+    /// is the same sum, in the same order, as a per-module ordered map would give, in O(n + E)
+    /// plus the sorting of each row's distinct targets.
     fn aggregate(&self, labels: &[usize], count: usize) -> FlowGraph<'static> {
-        let mut flow = vec![0.0; count];
-        let mut rows: Vec<std::collections::BTreeMap<usize, f64>> = vec![Default::default(); count];
-        for node in 0..self.len() {
-            let a = labels[node];
-            flow[a] += self.flow[node];
-            for (target, f) in self.links(node) {
-                let b = labels[target];
-                if a != b {
-                    *rows[a].entry(b).or_insert(0.0) += f;
-                }
-            }
+        let n = self.len();
+        // Nodes grouped by module, ascending inside each (a counting sort).
+        let mut starts = vec![0usize; count + 1];
+        for &label in labels {
+            starts[label + 1] += 1;
         }
+        for module in 0..count {
+            starts[module + 1] += starts[module];
+        }
+        let mut cursor = starts.clone();
+        let mut grouped = vec![0usize; n];
+        for (node, &label) in labels.iter().enumerate() {
+            grouped[cursor[label]] = node;
+            cursor[label] += 1;
+        }
+        let mut flow = vec![0.0; count];
+        let mut row = vec![0.0f64; count];
+        let mut seen = vec![false; count];
+        let mut touched: Vec<usize> = Vec::new();
         let mut offsets = vec![0usize; count + 1];
         let mut targets = Vec::new();
         let mut link_flow = Vec::new();
-        for (a, row) in rows.iter().enumerate() {
-            for (&b, &f) in row {
-                targets.push(b as u32);
-                link_flow.push(f);
+        for a in 0..count {
+            for &node in &grouped[starts[a]..starts[a + 1]] {
+                flow[a] += self.flow[node];
+                for (target, f) in self.links(node) {
+                    let b = labels[target];
+                    if a != b {
+                        if !seen[b] {
+                            seen[b] = true;
+                            touched.push(b);
+                        }
+                        row[b] += f;
+                    }
+                }
             }
+            touched.sort_unstable();
+            for &b in &touched {
+                targets.push(b as u32);
+                link_flow.push(row[b]);
+                row[b] = 0.0;
+                seen[b] = false;
+            }
+            touched.clear();
             offsets[a + 1] = targets.len();
         }
         let mut graph = FlowGraph {
@@ -159,23 +188,27 @@ impl<'a> FlowGraph<'a> {
     }
 
     /// The sub-network of the nodes in `members` (sorted), with their flows and the links among
-    /// them only.
-    fn subgraph(&self, members: &[usize]) -> FlowGraph<'static> {
-        let mut local = std::collections::HashMap::with_capacity(members.len());
+    /// them only. `local` is scratch of one entry per node of this network, all `u32::MAX` on
+    /// entry and on return.
+    fn subgraph(&self, members: &[usize], local: &mut [u32]) -> FlowGraph<'static> {
         for (index, &node) in members.iter().enumerate() {
-            local.insert(node, index);
+            local[node] = index as u32;
         }
         let mut offsets = vec![0usize; members.len() + 1];
         let mut targets = Vec::new();
         let mut link_flow = Vec::new();
         for (index, &node) in members.iter().enumerate() {
             for (target, f) in self.links(node) {
-                if let Some(&t) = local.get(&target) {
-                    targets.push(t as u32);
+                let t = local[target];
+                if t != u32::MAX {
+                    targets.push(t);
                     link_flow.push(f);
                 }
             }
             offsets[index + 1] = targets.len();
+        }
+        for &node in members {
+            local[node] = u32::MAX;
         }
         let mut graph = FlowGraph {
             flow: members.iter().map(|&node| self.flow[node]).collect(),
@@ -387,10 +420,12 @@ fn core<R: Rng>(graph: &FlowGraph, initial: Option<&[usize]>, rng: &mut R) -> Ve
         Some(labels) => renumber(labels).0,
         None => (0..n).collect(),
     };
-    let mut level = graph.clone();
+    // The first level is the caller's network itself; aggregated levels are owned here.
+    let mut aggregated: Option<FlowGraph<'static>> = None;
     let mut level_labels = membership.clone();
     loop {
-        let moved = local_moving(&level, &mut level_labels, rng);
+        let level = aggregated.as_ref().unwrap_or(graph);
+        let moved = local_moving(level, &mut level_labels, rng);
         let (local, count) = renumber(&level_labels);
         let first_level = level.len() == n;
         if first_level {
@@ -403,7 +438,7 @@ fn core<R: Rng>(graph: &FlowGraph, initial: Option<&[usize]>, rng: &mut R) -> Ve
         if (!moved && !first_level) || count == level.len() || count <= 1 {
             break;
         }
-        level = level.aggregate(&local, count);
+        aggregated = Some(level.aggregate(&local, count));
         level_labels = (0..count).collect();
     }
     renumber(&membership).0
@@ -419,8 +454,9 @@ fn coarse_tune<R: Rng>(graph: &FlowGraph, labels: &[usize], rng: &mut R) -> Vec<
     }
     let mut submodule = vec![0usize; graph.len()];
     let mut parent = Vec::new();
+    let mut local = vec![u32::MAX; graph.len()];
     for (module, nodes) in members.iter().enumerate() {
-        let sub = graph.subgraph(nodes);
+        let sub = graph.subgraph(nodes, &mut local);
         let sub_labels = core(&sub, None, rng);
         let offset = parent.len();
         let sub_count = sub_labels.iter().copied().max().map_or(0, |max| max + 1);
