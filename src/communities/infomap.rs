@@ -20,6 +20,7 @@ use rand::Rng;
 use std::borrow::Cow;
 
 use super::louvain::renumber;
+use super::plogp::{plogp, plogp_in_place};
 use crate::graph::ParticipantGraph;
 
 /// A move must shorten the codelength by more than this many bits to be made (the default
@@ -55,14 +56,6 @@ impl Codelength {
         } else {
             0.0
         }
-    }
-}
-
-fn plogp(x: f64) -> f64 {
-    if x > 0.0 {
-        x * x.log2()
-    } else {
-        0.0
     }
 }
 
@@ -304,31 +297,123 @@ impl Modules {
         (exit_old, plogp(exit_old), plogp(exit_old + self.flow[old] - p))
     }
 
-    /// Change of codelength when a node of flow `p` and out-flow `out` moves from `old` to `new`,
-    /// having link flow `to_new` to `new`; `leaving` is [`Modules::leaving`] of the move (its
-    /// terms are the same for every candidate). Returns the delta with the new exits. The sum is
-    /// the map equation's difference term by term, in a fixed order, with the unchanged
-    /// modules' plogp terms read from the cache (the same values, so the same result bit for bit).
-    fn delta(
+    /// Change of codelength when a node of flow `p` and out-flow `out` moves from `old` to each
+    /// module of `candidates`, having link flow `to_new[i]` to candidate i; `leaving` is
+    /// [`Modules::leaving`] of the move (its terms are the same for every candidate). Fills
+    /// `deltas` (one per candidate) with the map equation's difference term by term, in a fixed
+    /// order, with the unchanged modules' plogp terms read from the cache; the three new plogp
+    /// terms of each candidate are computed together in `scratch`, several at a time.
+    #[allow(clippy::too_many_arguments)]
+    fn deltas(
         &self,
         old: usize,
-        new: usize,
+        candidates: &[usize],
+        to_new: &[f64],
         p: f64,
         out: f64,
         leaving: (f64, f64, f64),
-        to_new: f64,
-    ) -> (f64, f64, f64) {
+        scratch: &mut Vec<f64>,
+        deltas: &mut Vec<f64>,
+    ) {
         let (exit_old, plogp_exit_old, plogp_exit_flow_old) = leaving;
-        let exit_new = self.exit[new] + out - 2.0 * to_new;
-        let total = self.total_exit - self.exit[old] - self.exit[new] + exit_old + exit_new;
-        let delta = plogp(total)
-            - self.plogp_total_exit
-            - 2.0 * (plogp_exit_old + plogp(exit_new) - self.plogp_exit[old] - self.plogp_exit[new])
-            + plogp_exit_flow_old
-            + plogp(exit_new + self.flow[new] + p)
-            - self.plogp_exit_flow[old]
-            - self.plogp_exit_flow[new];
-        (delta, exit_old, exit_new)
+        let count = candidates.len();
+        scratch.clear();
+        scratch.resize(3 * count, 0.0);
+        let (totals, rest) = scratch.split_at_mut(count);
+        let (exits, exit_flows) = rest.split_at_mut(count);
+        for (i, (&new, &to)) in candidates.iter().zip(to_new).enumerate() {
+            let exit_new = self.exit[new] + out - 2.0 * to;
+            totals[i] = self.total_exit - self.exit[old] - self.exit[new] + exit_old + exit_new;
+            exits[i] = exit_new;
+            exit_flows[i] = exit_new + self.flow[new] + p;
+        }
+        plogp_in_place(scratch);
+        let (totals, rest) = scratch.split_at(count);
+        let (exits, exit_flows) = rest.split_at(count);
+        deltas.clear();
+        deltas.extend(candidates.iter().enumerate().map(|(i, &new)| {
+            totals[i]
+                - self.plogp_total_exit
+                - 2.0 * (plogp_exit_old + exits[i] - self.plogp_exit[old] - self.plogp_exit[new])
+                + plogp_exit_flow_old
+                + exit_flows[i]
+                - self.plogp_exit_flow[old]
+                - self.plogp_exit_flow[new]
+        }));
+    }
+}
+
+/// Lanes of the link-flow sums of [`NeighbourFlow`]: link j of a node adds to lane j mod 4 of
+/// its module, so runs of links into one module make four short dependency chains instead of
+/// one long one (a sum's next addition waits for the previous one's store otherwise).
+const FLOW_LANES: usize = 4;
+
+/// Scratch for the flow from one node to each module its links reach.
+struct NeighbourFlow {
+    /// `FLOW_LANES` partial sums per module, adjacent in memory; zero between nodes.
+    lanes: Vec<f64>,
+    /// The visit at which each module was last reached; `visit` marks the current node's.
+    stamp: Vec<u32>,
+    visit: u32,
+    /// Modules reached by the current node, in order of first link; one spare slot.
+    reached: Vec<usize>,
+}
+
+impl NeighbourFlow {
+    fn new(module_count: usize) -> Self {
+        NeighbourFlow {
+            lanes: vec![0.0; FLOW_LANES * module_count],
+            stamp: vec![u32::MAX; module_count],
+            visit: 0,
+            reached: vec![0; module_count + 1],
+        }
+    }
+
+    /// The link flow from `node` to each module its links reach, in order of first link:
+    /// modules other than `old` go to `candidates` with their flows in `to_new`; returns the
+    /// flow to `old` (0 when no link reaches it). Branch-free over the links: each link writes
+    /// its module into the next slot of `reached`, which advances only at a module's first link.
+    fn gather(
+        &mut self,
+        graph: &FlowGraph,
+        node: usize,
+        labels: &[usize],
+        old: usize,
+        candidates: &mut Vec<usize>,
+        to_new: &mut Vec<f64>,
+    ) -> f64 {
+        if self.visit == u32::MAX - 1 {
+            self.stamp.fill(u32::MAX);
+            self.visit = 0;
+        }
+        self.visit += 1;
+        let visit = self.visit;
+        let mut count = 0;
+        let range = graph.offsets[node]..graph.offsets[node + 1];
+        let scale = graph.link_scale;
+        let links = graph.targets[range.clone()].iter().zip(&graph.link_weights[range]);
+        for (j, (&target, &weight)) in links.enumerate() {
+            let m = labels[target as usize];
+            self.reached[count] = m;
+            count += usize::from(self.stamp[m] != visit);
+            self.stamp[m] = visit;
+            self.lanes[FLOW_LANES * m + j % FLOW_LANES] += weight * scale;
+        }
+        candidates.clear();
+        to_new.clear();
+        let mut to_old = 0.0;
+        for &m in &self.reached[..count] {
+            let lanes = &mut self.lanes[FLOW_LANES * m..FLOW_LANES * (m + 1)];
+            let flow = (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]);
+            lanes.fill(0.0);
+            if m == old {
+                to_old = flow;
+            } else {
+                candidates.push(m);
+                to_new.push(flow);
+            }
+        }
+        to_old
     }
 }
 
@@ -339,8 +424,9 @@ fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) ->
     let mut modules = Modules::new(graph, labels, n);
     let mut empty: Vec<usize> = (0..n).filter(|&m| modules.members[m] == 0).collect();
     let mut order: Vec<usize> = (0..n).collect();
-    let mut to_module = vec![0.0f64; n];
-    let mut touched: Vec<usize> = Vec::new();
+    let mut neighbours = NeighbourFlow::new(n);
+    let (mut candidates, mut to_new) = (Vec::<usize>::new(), Vec::<f64>::new());
+    let (mut scratch, mut deltas) = (Vec::<f64>::new(), Vec::<f64>::new());
     let mut moved_any = false;
     for _ in 0..MAX_PASSES {
         order.shuffle(rng);
@@ -352,36 +438,32 @@ fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) ->
             if out <= 0.0 {
                 continue;
             }
-            for (target, f) in graph.links(node) {
-                let m = labels[target];
-                if to_module[m] == 0.0 {
-                    touched.push(m);
-                }
-                to_module[m] += f;
-            }
-            let to_old = to_module[old];
+            let to_old = neighbours.gather(graph, node, labels, old, &mut candidates, &mut to_new);
             let leaving = modules.leaving(old, p, out, to_old);
-            let mut best = (old, 0.0f64, 0.0f64, 0.0f64);
-            let consider = |candidate: usize, to_new: f64, best: &mut (usize, f64, f64, f64)| {
-                let (delta, exit_old, exit_new) = modules.delta(old, candidate, p, out, leaving, to_new);
-                if delta < best.1 - MIN_IMPROVEMENT {
-                    *best = (candidate, delta, exit_old, exit_new);
-                }
-            };
-            for &m in &touched {
-                if m != old {
-                    consider(m, to_module[m], &mut best);
-                }
-            }
             if modules.members[old] > 1 {
                 if let Some(&fresh) = empty.last() {
-                    consider(fresh, 0.0, &mut best);
+                    candidates.push(fresh);
+                    to_new.push(0.0);
                 }
             }
-            for &m in &touched {
-                to_module[m] = 0.0;
+            modules.deltas(old, &candidates, &to_new, p, out, leaving, &mut scratch, &mut deltas);
+            // The first candidate that beats the best so far by more than the minimum improvement.
+            let mut chosen: Option<usize> = None;
+            let mut best_delta = 0.0f64;
+            for (i, &delta) in deltas.iter().enumerate() {
+                if delta < best_delta - MIN_IMPROVEMENT {
+                    chosen = Some(i);
+                    best_delta = delta;
+                }
             }
-            touched.clear();
+            let best = match chosen {
+                Some(i) => {
+                    let new = candidates[i];
+                    let exit_new = modules.exit[new] + out - 2.0 * to_new[i];
+                    (new, best_delta, leaving.0, exit_new)
+                }
+                None => (old, 0.0, 0.0, 0.0),
+            };
             let (new, _, exit_old, exit_new) = best;
             if new != old {
                 if empty.last() == Some(&new) {

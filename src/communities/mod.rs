@@ -10,6 +10,7 @@ mod infomap;
 mod leiden;
 mod louvain;
 mod method;
+mod plogp;
 mod quality;
 
 pub use consensus::{

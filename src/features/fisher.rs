@@ -36,14 +36,14 @@ const LN2_LO: f64 = 1.908_214_929_270_587_7e-10;
 
 /// Bit pattern of sqrt(2)/2: subtracting it before taking the exponent puts the reduced
 /// mantissa in [sqrt(2)/2, sqrt(2)).
-const SQRT_HALF_BITS: u64 = 0x3fe6_a09e_667f_3bcd;
+pub(crate) const SQRT_HALF_BITS: u64 = 0x3fe6_a09e_667f_3bcd;
 
 /// 2^52 as the bit pattern 0x4330...: or-ing a small integer into its mantissa and subtracting
 /// 2^52 converts it to f64 without an integer-to-float instruction (which SSE2 lacks for 64 bits).
-const TWO_52_BITS: u64 = 0x4330_0000_0000_0000;
+pub(crate) const TWO_52_BITS: u64 = 0x4330_0000_0000_0000;
 
 #[inline(always)]
-fn lg_polynomial(z: f64) -> f64 {
+pub(crate) fn lg_polynomial(z: f64) -> f64 {
     z * (LG[0] + z * (LG[1] + z * (LG[2] + z * (LG[3] + z * (LG[4] + z * (LG[5] + z * LG[6]))))))
 }
 

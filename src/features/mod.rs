@@ -7,7 +7,7 @@
 
 mod build;
 mod error;
-mod fisher;
+pub(crate) mod fisher;
 pub mod nuisance;
 
 pub use build::{
