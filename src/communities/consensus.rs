@@ -93,14 +93,14 @@ fn trials(
     stage: &str,
     index: u64,
 ) -> Vec<Trial> {
+    let prepared = options.method.prepare(graph);
     (0..count as u64)
         .into_par_iter()
         .map(|trial| {
             let mut rng = crate::seed::rng(options.seed, stage, &[index, trial]);
-            let labels = options.method.run(graph, options.resolution, &mut rng);
-            let quality = options.method.quality(graph, &labels, options.resolution);
+            let result = options.method.run_prepared(&prepared, options.resolution, &mut rng);
             crate::report::progress::tick(1);
-            (labels, quality)
+            result
         })
         .collect()
 }

@@ -31,6 +31,12 @@ pub const MIN_IMPROVEMENT: f64 = 1e-10;
 /// (strata's choice; the optimiser converges within tens of passes on participant graphs.)
 const MAX_PASSES: usize = 100;
 
+/// Tuning goes on only while each round shortens the codelength by more than this share of the
+/// initial two-level codelength (every node its own module): the infomap package's
+/// tune-iteration threshold and its default, 1e-5, with the same rule that coarse tuning is
+/// tried at least once.
+pub const TUNE_RELATIVE_THRESHOLD: f64 = 1e-5;
+
 /// Alternating fine and coarse tuning rounds at most (strata's choice; they stop earlier once a
 /// round no longer shortens the codelength by [`MIN_IMPROVEMENT`]).
 const MAX_TUNE_ROUNDS: usize = 20;
@@ -215,16 +221,26 @@ impl<'a> FlowGraph<'a> {
         graph
     }
 
+    /// The two-level codelength with every node its own module, in bits (each node's exit flow
+    /// is its out-flow, so no pass over the links is needed).
+    fn singleton_codelength(&self) -> f64 {
+        let total_exit: f64 = self.out.iter().sum();
+        plogp(total_exit) - 2.0 * self.out.iter().map(|&q| plogp(q)).sum::<f64>()
+            + self.out.iter().zip(&self.flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>()
+            - self.flow.iter().map(|&p| plogp(p)).sum::<f64>()
+    }
+
     /// Exit flow and flow of each module of `labels` (labels below the node count).
     fn module_totals(&self, labels: &[usize]) -> (Vec<f64>, Vec<f64>) {
         let count = labels.iter().copied().max().map_or(0, |max| max + 1);
         let mut exit = vec![0.0; count];
         let mut flow = vec![0.0; count];
         for node in 0..self.len() {
-            flow[labels[node]] += self.flow[node];
+            let m = labels[node];
+            flow[m] += self.flow[node];
             for (target, f) in self.links(node) {
-                if labels[target] != labels[node] {
-                    exit[labels[node]] += f;
+                if labels[target] != m {
+                    exit[m] += f;
                 }
             }
         }
@@ -265,10 +281,17 @@ impl Modules {
             plogp_exit_flow: Vec::new(),
             plogp_total_exit: 0.0,
         };
+        let singletons = count == graph.len() && labels.iter().enumerate().all(|(node, &m)| m == node);
         for node in 0..graph.len() {
             let m = labels[node];
             modules.flow[m] += graph.flow[node];
             modules.members[m] += 1;
+            if singletons {
+                // Every link leaves the node's own module: the exit is the out-flow, summed
+                // in the same order.
+                modules.exit[m] = graph.out[node];
+                continue;
+            }
             for (target, f) in graph.links(node) {
                 if labels[target] != m {
                     modules.exit[m] += f;
@@ -573,21 +596,52 @@ fn coarse_tune<R: Rng>(graph: &FlowGraph, labels: &[usize], rng: &mut R) -> Vec<
 /// Rosvall & Bergstrom 2008, PNAS 105:1118 (map equation, core algorithm, fine and coarse
 /// tuning in its supplementary material).
 pub fn infomap<R: Rng>(graph: &ParticipantGraph, rng: &mut R) -> Vec<usize> {
-    let flow = FlowGraph::from_graph(graph);
+    infomap_trial(&FlowNetwork::new(graph), rng).0
+}
+
+/// The flow network of a participant graph, computed once and shared by every trial on it
+/// (the node flows and out-flows take two passes over the links).
+#[derive(Debug, Clone)]
+pub struct FlowNetwork<'a> {
+    flow: FlowGraph<'a>,
+}
+
+impl<'a> FlowNetwork<'a> {
+    /// The flow network of `graph` (flow as in this module's documentation).
+    pub fn new(graph: &'a ParticipantGraph) -> Self {
+        FlowNetwork { flow: FlowGraph::from_graph(graph) }
+    }
+}
+
+/// One seeded [`infomap`] trial on a shared flow network: the module labels and their
+/// two-level codelength, equal to [`map_equation`] of the labels on the same graph.
+pub fn infomap_trial<R: Rng>(network: &FlowNetwork, rng: &mut R) -> (Vec<usize>, f64) {
+    let labels = optimise(&network.flow, rng);
+    let codelength = codelength_of(&network.flow, &labels).codelength;
+    (labels, codelength)
+}
+
+fn optimise<R: Rng>(flow: &FlowGraph, rng: &mut R) -> Vec<usize> {
     let n = flow.len();
     if flow.flow.iter().all(|&p| p <= 0.0) {
         return (0..n).collect();
     }
-    let mut labels = core(&flow, None, rng);
+    // A tuning round continues the tuning only if it shortens the codelength by more than
+    // TUNE_RELATIVE_THRESHOLD of the initial (one node per module) two-level codelength.
+    let tune_threshold = MIN_IMPROVEMENT.max(TUNE_RELATIVE_THRESHOLD * flow.singleton_codelength());
+    let mut labels = core(flow, None, rng);
     let mut length = flow.module_terms(&labels);
     for round in 0..MAX_TUNE_ROUNDS {
         let candidate =
-            if round % 2 == 0 { core(&flow, Some(&labels), rng) } else { coarse_tune(&flow, &labels, rng) };
+            if round % 2 == 0 { core(flow, Some(&labels), rng) } else { coarse_tune(flow, &labels, rng) };
         let candidate_length = flow.module_terms(&candidate);
-        if candidate_length < length - MIN_IMPROVEMENT {
+        let gain = length - candidate_length;
+        if gain > MIN_IMPROVEMENT {
             labels = candidate;
             length = candidate_length;
-        } else if round > 0 {
+        }
+        // Stop once a round gained too little, but only after coarse tuning has been tried.
+        if gain <= tune_threshold && round > 0 {
             break;
         }
     }
@@ -609,7 +663,11 @@ pub fn infomap<R: Rng>(graph: &ParticipantGraph, rng: &mut R) -> Vec<usize> {
 /// # References
 /// Rosvall & Bergstrom 2008, PNAS 105:1118, eq. 4.
 pub fn map_equation(graph: &ParticipantGraph, membership: &[usize]) -> Codelength {
-    let flow = FlowGraph::from_graph(graph);
+    codelength_of(&FlowGraph::from_graph(graph), membership)
+}
+
+/// [`map_equation`] on a flow network already built.
+fn codelength_of(flow: &FlowGraph, membership: &[usize]) -> Codelength {
     let labels = renumber(membership).0;
     let node_entropy = -flow.flow.iter().map(|&p| plogp(p)).sum::<f64>();
     let (exit, module_flow) = flow.module_totals(&labels);

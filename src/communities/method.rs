@@ -7,7 +7,7 @@
 use rand::Rng;
 use serde::Serialize;
 
-use super::infomap::{infomap, map_equation};
+use super::infomap::{infomap, infomap_trial, map_equation, FlowNetwork};
 use super::leiden::{cpm_quality, leiden, LeidenQuality};
 use super::louvain::louvain;
 use super::quality::modularity;
@@ -27,6 +27,15 @@ pub enum Method {
     LeidenCpm,
     /// Louvain modularity optimisation (Blondel et al. 2008): highest modularity kept.
     Louvain,
+}
+
+/// A graph made ready for a method's trials ([`Method::prepare`]).
+#[derive(Debug, Clone)]
+pub enum Prepared<'a> {
+    /// Infomap's flow network of the graph.
+    Flow(FlowNetwork<'a>),
+    /// The graph itself (methods that need nothing more).
+    Graph(&'a ParticipantGraph),
 }
 
 /// What a method's trials are scored by.
@@ -68,6 +77,32 @@ impl Method {
             Method::Leiden => leiden(graph, LeidenQuality::Modularity { resolution }, rng),
             Method::LeidenCpm => leiden(graph, LeidenQuality::Cpm { resolution }, rng),
             Method::Louvain => louvain(graph, resolution, rng),
+        }
+    }
+
+    /// What the method's trials on one graph share: Infomap's flow network, built once.
+    pub fn prepare(self, graph: &ParticipantGraph) -> Prepared<'_> {
+        match self {
+            Method::Infomap => Prepared::Flow(FlowNetwork::new(graph)),
+            Method::Leiden | Method::LeidenCpm | Method::Louvain => Prepared::Graph(graph),
+        }
+    }
+
+    /// One seeded trial on a prepared graph: labels and [`Method::quality`] of them, the same
+    /// values as [`Method::run`] followed by [`Method::quality`].
+    pub fn run_prepared<R: Rng>(
+        self,
+        prepared: &Prepared,
+        resolution: f64,
+        rng: &mut R,
+    ) -> (Vec<usize>, f64) {
+        match prepared {
+            Prepared::Flow(network) => infomap_trial(network, rng),
+            Prepared::Graph(graph) => {
+                let labels = self.run(graph, resolution, rng);
+                let quality = self.quality(graph, &labels, resolution);
+                (labels, quality)
+            }
         }
     }
 

@@ -17,10 +17,10 @@ pub use consensus::{
     coassignment, detect, detect_with_weighting, DensityWeighting, DENSITY_MODULARITY_FLOOR,
     MIN_ASSIGNED_FRACTION,
 };
-pub use infomap::{infomap, map_equation, Codelength};
+pub use infomap::{infomap, infomap_trial, map_equation, Codelength, FlowNetwork};
 pub use leiden::{cpm_quality, leiden, LeidenQuality};
 pub use louvain::{louvain, renumber};
-pub use method::{Method, Objective};
+pub use method::{Method, Objective, Prepared};
 pub use quality::modularity;
 
 use ndarray::Array2;
