@@ -394,8 +394,10 @@ impl NeighbourFlow {
 
     /// The link flow from `node` to each module its links reach, in order of first link:
     /// modules other than `old` go to `candidates` with their flows in `to_new`; returns the
-    /// flow to `old` (0 when no link reaches it). Branch-free over the links: each link writes
-    /// its module into the next slot of `reached`, which advances only at a module's first link.
+    /// flow to `old`: 0 when no link reaches it, otherwise the node's out-flow less the flow to
+    /// the other modules (the same sum up to rounding). Over the links to other modules the
+    /// loop is branch-free: each writes its module into the next slot of `reached`, which
+    /// advances only at a module's first link.
     fn gather(
         &mut self,
         graph: &FlowGraph,
@@ -415,8 +417,15 @@ impl NeighbourFlow {
         let range = graph.offsets[node]..graph.offsets[node + 1];
         let scale = graph.link_scale;
         let links = graph.targets[range.clone()].iter().zip(&graph.link_weights[range]);
+        let mut reaches_old = false;
         for (j, (&target, &weight)) in links.enumerate() {
             let m = labels[target as usize];
+            if m == old {
+                // Most links of a settled node stay in its module: their flow is the
+                // out-flow less the flow to other modules, so they are only noted here.
+                reaches_old = true;
+                continue;
+            }
             self.reached[count] = m;
             count += usize::from(self.stamp[m] != visit);
             self.stamp[m] = visit;
@@ -424,19 +433,20 @@ impl NeighbourFlow {
         }
         candidates.clear();
         to_new.clear();
-        let mut to_old = 0.0;
+        let mut elsewhere = 0.0;
         for &m in &self.reached[..count] {
             let lanes = &mut self.lanes[FLOW_LANES * m..FLOW_LANES * (m + 1)];
             let flow = (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]);
             lanes.fill(0.0);
-            if m == old {
-                to_old = flow;
-            } else {
-                candidates.push(m);
-                to_new.push(flow);
-            }
+            candidates.push(m);
+            to_new.push(flow);
+            elsewhere += flow;
         }
-        to_old
+        if reaches_old {
+            graph.out[node] - elsewhere
+        } else {
+            0.0
+        }
     }
 }
 
