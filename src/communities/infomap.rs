@@ -366,15 +366,10 @@ impl Modules {
     }
 }
 
-/// Lanes of the link-flow sums of [`NeighbourFlow`]: link j of a node adds to lane j mod 4 of
-/// its module, so runs of links into one module make four short dependency chains instead of
-/// one long one (a sum's next addition waits for the previous one's store otherwise).
-const FLOW_LANES: usize = 4;
-
 /// Scratch for the flow from one node to each module its links reach.
 struct NeighbourFlow {
-    /// `FLOW_LANES` partial sums per module, adjacent in memory; zero between nodes.
-    lanes: Vec<f64>,
+    /// Link flow per module; zero between nodes.
+    to_module: Vec<f64>,
     /// The visit at which each module was last reached; `visit` marks the current node's.
     stamp: Vec<u32>,
     visit: u32,
@@ -385,7 +380,7 @@ struct NeighbourFlow {
 impl NeighbourFlow {
     fn new(module_count: usize) -> Self {
         NeighbourFlow {
-            lanes: vec![0.0; FLOW_LANES * module_count],
+            to_module: vec![0.0; module_count],
             stamp: vec![u32::MAX; module_count],
             visit: 0,
             reached: vec![0; module_count + 1],
@@ -418,7 +413,7 @@ impl NeighbourFlow {
         let scale = graph.link_scale;
         let links = graph.targets[range.clone()].iter().zip(&graph.link_weights[range]);
         let mut reaches_old = false;
-        for (j, (&target, &weight)) in links.enumerate() {
+        for (&target, &weight) in links {
             let m = labels[target as usize];
             if m == old {
                 // Most links of a settled node stay in its module: their flow is the
@@ -429,15 +424,13 @@ impl NeighbourFlow {
             self.reached[count] = m;
             count += usize::from(self.stamp[m] != visit);
             self.stamp[m] = visit;
-            self.lanes[FLOW_LANES * m + j % FLOW_LANES] += weight * scale;
+            self.to_module[m] += weight * scale;
         }
         candidates.clear();
         to_new.clear();
         let mut elsewhere = 0.0;
         for &m in &self.reached[..count] {
-            let lanes = &mut self.lanes[FLOW_LANES * m..FLOW_LANES * (m + 1)];
-            let flow = (lanes[0] + lanes[1]) + (lanes[2] + lanes[3]);
-            lanes.fill(0.0);
+            let flow = std::mem::take(&mut self.to_module[m]);
             candidates.push(m);
             to_new.push(flow);
             elsewhere += flow;
