@@ -2,48 +2,13 @@
 //! cohort, and every bad input of the foundation issue (exit code, message naming file and
 //! participant, nothing written).
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod util;
+
+use std::path::Path;
+use std::process::Command;
 
 use ndarray::{Array2, Array3, Array4};
-
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
-}
-
-fn text(output: &Output) -> (String, String) {
-    (
-        String::from_utf8_lossy(&output.stdout).into_owned(),
-        String::from_utf8_lossy(&output.stderr).into_owned(),
-    )
-}
-
-/// A small valid matrix cohort: `count` participants, 6 regions, alternating diagnoses.
-fn matrix_cohort(dir: &Path, count: usize) -> Vec<PathBuf> {
-    let mut table = String::from("participant_id\tdiagnosis\tage\n");
-    let mut paths = Vec::new();
-    for index in 0..count {
-        let id = format!("sub-{:02}", index + 1);
-        table.push_str(&format!(
-            "{id}\t{}\t{}\n",
-            if index % 2 == 0 { "insomnia" } else { "control" },
-            12 + index
-        ));
-        let mut matrix = Array2::<f32>::eye(6);
-        for i in 0..6 {
-            for j in (i + 1)..6 {
-                let value = (((index * 7 + i * 3 + j * 5) % 11) as f32 - 5.0) / 10.0;
-                matrix[[i, j]] = value;
-                matrix[[j, i]] = value;
-            }
-        }
-        let path = dir.join(format!("{id}_conn.npy"));
-        ndarray_npy::write_npy(&path, &matrix).unwrap();
-        paths.push(path);
-    }
-    std::fs::write(dir.join("participants.tsv"), table).unwrap();
-    paths
-}
+use util::cli::{matrix_cohort, strata, text};
 
 fn run_args(out: &str) -> Vec<&str> {
     vec![

@@ -5,15 +5,14 @@
 //! to make a missing numpy a failure instead of a skip); inputs of another kind or size are
 //! refused.
 
+mod util;
+
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
 use strata::demo::Scenario;
-
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
-}
+use util::cli::strata;
 
 fn stderr(output: &Output) -> String {
     String::from_utf8_lossy(&output.stderr).into_owned()

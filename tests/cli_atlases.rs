@@ -8,24 +8,15 @@
 //! (300 regions, 13 networks and `unassigned`), nilearn 0.14.1 `load_mni152_brain_mask`
 //! (235,375 voxels of a 91 x 109 x 91 grid); tests/reference_atlas_volumes.rs checks the files.
 
+mod util;
+
 use std::collections::BTreeSet;
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
 
 use ndarray::Array3;
 use serde_json::Value;
 use sha2::{Digest, Sha256};
-
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
-}
-
-fn text(output: &Output) -> (String, String) {
-    (
-        String::from_utf8_lossy(&output.stdout).into_owned(),
-        String::from_utf8_lossy(&output.stderr).into_owned(),
-    )
-}
+use util::cli::{strata, text};
 
 fn succeed(args: &[&str], cwd: &Path) -> String {
     let output = strata(args, cwd);

@@ -1,12 +1,10 @@
 //! The real binary: `composition.tsv` and `covariates.tsv` of a run, the covariate warning in
 //! words, and the `--covariates` errors.
 
-use std::path::Path;
-use std::process::{Command, Output};
+mod util;
 
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
-}
+use std::path::Path;
+use util::cli::strata;
 
 fn rows(path: &Path) -> Vec<Vec<String>> {
     let text = std::fs::read_to_string(path).unwrap_or_else(|_| panic!("{} is written", path.display()));

@@ -3,41 +3,13 @@
 //! failed check named, nothing written), and `strata run CONFIG` with flags taking the place of
 //! the file's keys.
 
+mod util;
+
 use std::path::Path;
-use std::process::{Command, Output};
+use std::process::Output;
 
 use ndarray::Array2;
-
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
-}
-
-fn text(output: &Output) -> (String, String) {
-    (
-        String::from_utf8_lossy(&output.stdout).into_owned(),
-        String::from_utf8_lossy(&output.stderr).into_owned(),
-    )
-}
-
-/// A small valid matrix cohort: `count` participants, 6 regions, alternating diagnoses.
-fn matrix_cohort(dir: &Path, count: usize) {
-    let mut table = String::from("participant_id\tdiagnosis\tage\n");
-    for index in 0..count {
-        let id = format!("sub-{:02}", index + 1);
-        let level = if index % 2 == 0 { "insomnia" } else { "control" };
-        table.push_str(&format!("{id}\t{level}\t{}\n", 12 + index));
-        let mut matrix = Array2::<f32>::eye(6);
-        for i in 0..6 {
-            for j in (i + 1)..6 {
-                let value = (((index * 7 + i * 3 + j * 5) % 11) as f32 - 5.0) / 10.0;
-                matrix[[i, j]] = value;
-                matrix[[j, i]] = value;
-            }
-        }
-        ndarray_npy::write_npy(dir.join(format!("{id}_conn.npy")), &matrix).unwrap();
-    }
-    std::fs::write(dir.join("participants.tsv"), table).unwrap();
-}
+use util::cli::{matrix_cohort, strata, text};
 
 const CHECK: [&str; 9] = [
     "check",

@@ -5,15 +5,13 @@
 //! Inputs are the committed series of `tests/data/bold/` (generator
 //! `tests/data/generators/bold_reference.py`), copied and altered in a fresh temporary folder.
 
+mod util;
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use util::cli::strata;
 
 fn data(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data").join(name)
-}
-
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
 }
 
 /// A folder with one participant's series, confounds and the shared seed files.

@@ -6,14 +6,8 @@
 
 mod util;
 
-use std::path::Path;
-use std::process::{Command, Output};
-
+use util::cli::strata;
 use util::graphs::reference_entry;
-
-fn strata(args: &[&str], cwd: &Path) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_strata")).args(args).current_dir(cwd).output().expect("run strata")
-}
 
 fn karate_path() -> String {
     format!("{}/tests/data/graphs/karate.tsv", env!("CARGO_MANIFEST_DIR"))

@@ -1,4 +1,5 @@
 //! Helpers shared by the integration tests.
 #![allow(dead_code)]
 
+pub mod cli;
 pub mod graphs;
