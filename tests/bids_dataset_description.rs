@@ -5,11 +5,13 @@
 //! every value of the schema's type, enum and item rules, GeneratedBy entries with only the keys
 //! the schema defines.
 
+mod util;
+
 use std::path::Path;
 use std::process::Command;
 
-use ndarray::Array2;
 use serde_json::Value;
+use util::cli::matrix_cohort;
 
 fn rules() -> Value {
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/bids_dataset_description_rules.json");
@@ -92,24 +94,6 @@ fn description_problems(description: &Value, rules: &Value) -> Vec<String> {
         }
     }
     problems
-}
-
-fn matrix_cohort(dir: &Path, count: usize) {
-    let mut table = String::from("participant_id\tdiagnosis\n");
-    for index in 0..count {
-        let id = format!("sub-{:02}", index + 1);
-        table.push_str(&format!("{id}\t{}\n", if index % 2 == 0 { "insomnia" } else { "control" }));
-        let mut matrix = Array2::<f32>::eye(6);
-        for i in 0..6 {
-            for j in (i + 1)..6 {
-                let value = (((index * 7 + i * 3 + j * 5) % 11) as f32 - 5.0) / 10.0;
-                matrix[[i, j]] = value;
-                matrix[[j, i]] = value;
-            }
-        }
-        ndarray_npy::write_npy(dir.join(format!("{id}_conn.npy")), &matrix).unwrap();
-    }
-    std::fs::write(dir.join("participants.tsv"), table).unwrap();
 }
 
 #[test]
