@@ -148,6 +148,7 @@ impl<'a> FlowGraph<'a> {
         let mut seen = vec![false; count];
         let mut touched: Vec<usize> = Vec::new();
         let mut offsets = vec![0usize; count + 1];
+        let mut out = vec![0.0; count];
         let mut targets = Vec::new();
         let mut link_flow = Vec::new();
         for a in 0..count {
@@ -165,25 +166,27 @@ impl<'a> FlowGraph<'a> {
                 }
             }
             touched.sort_unstable();
+            // The out-flow sums the row in stored order, as `outflows` would.
+            let mut row_out = 0.0;
             for &b in &touched {
                 targets.push(b as u32);
                 link_flow.push(row[b]);
+                row_out += row[b];
                 row[b] = 0.0;
                 seen[b] = false;
             }
+            out[a] = row_out;
             touched.clear();
             offsets[a + 1] = targets.len();
         }
-        let mut graph = FlowGraph {
+        FlowGraph {
             flow,
             offsets: Cow::Owned(offsets),
             targets: Cow::Owned(targets),
             link_weights: Cow::Owned(link_flow),
             link_scale: 1.0,
-            out: Vec::new(),
-        };
-        graph.out = graph.outflows();
-        graph
+            out,
+        }
     }
 
     /// The sub-network of the nodes in `members` (sorted), with their flows and the links among
@@ -194,31 +197,36 @@ impl<'a> FlowGraph<'a> {
             local[node] = index as u32;
         }
         let mut offsets = vec![0usize; members.len() + 1];
-        let mut targets = Vec::new();
-        let mut link_flow = Vec::new();
+        let mut out = vec![0.0; members.len()];
+        // At most every link of the members stays inside.
+        let capacity: usize = members.iter().map(|&node| self.offsets[node + 1] - self.offsets[node]).sum();
+        let mut targets = Vec::with_capacity(capacity);
+        let mut link_flow = Vec::with_capacity(capacity);
         for (index, &node) in members.iter().enumerate() {
+            // The out-flow sums the kept links in stored order, as `outflows` would.
+            let mut node_out = 0.0;
             for (target, f) in self.links(node) {
                 let t = local[target];
                 if t != u32::MAX {
                     targets.push(t);
                     link_flow.push(f);
+                    node_out += f;
                 }
             }
+            out[index] = node_out;
             offsets[index + 1] = targets.len();
         }
         for &node in members {
             local[node] = u32::MAX;
         }
-        let mut graph = FlowGraph {
+        FlowGraph {
             flow: members.iter().map(|&node| self.flow[node]).collect(),
             offsets: Cow::Owned(offsets),
             targets: Cow::Owned(targets),
             link_weights: Cow::Owned(link_flow),
             link_scale: 1.0,
-            out: Vec::new(),
-        };
-        graph.out = graph.outflows();
-        graph
+            out,
+        }
     }
 
     /// The two-level codelength with every node its own module, in bits (each node's exit flow
@@ -247,13 +255,21 @@ impl<'a> FlowGraph<'a> {
         (exit, flow)
     }
 
-    /// Codelength of `labels` on this network, up to the constant node-entropy term.
-    fn module_terms(&self, labels: &[usize]) -> f64 {
+    /// Codelength of `labels` on this network, up to the constant node-entropy term, with the
+    /// module totals it was computed from.
+    fn module_terms(&self, labels: &[usize]) -> (f64, ModuleTotals) {
         let (exit, flow) = self.module_totals(labels);
         let total_exit: f64 = exit.iter().sum();
-        plogp(total_exit) - 2.0 * exit.iter().map(|&q| plogp(q)).sum::<f64>()
-            + exit.iter().zip(&flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>()
+        let terms = plogp(total_exit) - 2.0 * exit.iter().map(|&q| plogp(q)).sum::<f64>()
+            + exit.iter().zip(&flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>();
+        (terms, ModuleTotals { exit, flow })
     }
+}
+
+/// Exit flow and flow per module of a partition.
+struct ModuleTotals {
+    exit: Vec<f64>,
+    flow: Vec<f64>,
 }
 
 /// Module totals during local moving, with the sums the map equation needs.
@@ -599,7 +615,7 @@ fn coarse_tune<R: Rng>(graph: &FlowGraph, labels: &[usize], rng: &mut R) -> Vec<
 /// Rosvall & Bergstrom 2008, PNAS 105:1118 (map equation, core algorithm, fine and coarse
 /// tuning in its supplementary material).
 pub fn infomap<R: Rng>(graph: &ParticipantGraph, rng: &mut R) -> Vec<usize> {
-    infomap_trial(&FlowNetwork::new(graph), rng).0
+    optimise(&FlowGraph::from_graph(graph), rng).0
 }
 
 /// The flow network of a participant graph, computed once and shared by every trial on it
@@ -619,36 +635,46 @@ impl<'a> FlowNetwork<'a> {
 /// One seeded [`infomap`] trial on a shared flow network: the module labels and their
 /// two-level codelength, equal to [`map_equation`] of the labels on the same graph.
 pub fn infomap_trial<R: Rng>(network: &FlowNetwork, rng: &mut R) -> (Vec<usize>, f64) {
-    let labels = optimise(&network.flow, rng);
-    let codelength = codelength_of(&network.flow, &labels).codelength;
+    let (labels, totals) = optimise(&network.flow, rng);
+    let codelength = codelength_from(&network.flow, &totals).codelength;
     (labels, codelength)
 }
 
-fn optimise<R: Rng>(flow: &FlowGraph, rng: &mut R) -> Vec<usize> {
+/// The optimiser of [`infomap`]: module labels (in order of first appearance) and their module
+/// totals.
+fn optimise<R: Rng>(flow: &FlowGraph, rng: &mut R) -> (Vec<usize>, ModuleTotals) {
     let n = flow.len();
     if flow.flow.iter().all(|&p| p <= 0.0) {
-        return (0..n).collect();
+        let labels: Vec<usize> = (0..n).collect();
+        let (exit, module_flow) = flow.module_totals(&labels);
+        return (labels, ModuleTotals { exit, flow: module_flow });
     }
     // A tuning round continues the tuning only if it shortens the codelength by more than
     // TUNE_RELATIVE_THRESHOLD of the initial (one node per module) two-level codelength.
     let tune_threshold = MIN_IMPROVEMENT.max(TUNE_RELATIVE_THRESHOLD * flow.singleton_codelength());
+    // Labels are kept in order of first appearance, so the totals of the partition kept are
+    // those `map_equation` computes for it.
     let mut labels = core(flow, None, rng);
-    let mut length = flow.module_terms(&labels);
+    let (mut length, mut totals) = flow.module_terms(&labels);
     for round in 0..MAX_TUNE_ROUNDS {
-        let candidate =
-            if round % 2 == 0 { core(flow, Some(&labels), rng) } else { coarse_tune(flow, &labels, rng) };
-        let candidate_length = flow.module_terms(&candidate);
+        let candidate = if round % 2 == 0 {
+            core(flow, Some(&labels), rng)
+        } else {
+            renumber(&coarse_tune(flow, &labels, rng)).0
+        };
+        let (candidate_length, candidate_totals) = flow.module_terms(&candidate);
         let gain = length - candidate_length;
         if gain > MIN_IMPROVEMENT {
             labels = candidate;
             length = candidate_length;
+            totals = candidate_totals;
         }
         // Stop once a round gained too little, but only after coarse tuning has been tried.
         if gain <= tune_threshold && round > 0 {
             break;
         }
     }
-    renumber(&labels).0
+    (labels, totals)
 }
 
 /// The two-level map equation of a partition.
@@ -672,11 +698,18 @@ pub fn map_equation(graph: &ParticipantGraph, membership: &[usize]) -> Codelengt
 /// [`map_equation`] on a flow network already built.
 fn codelength_of(flow: &FlowGraph, membership: &[usize]) -> Codelength {
     let labels = renumber(membership).0;
-    let node_entropy = -flow.flow.iter().map(|&p| plogp(p)).sum::<f64>();
     let (exit, module_flow) = flow.module_totals(&labels);
+    codelength_from(flow, &ModuleTotals { exit, flow: module_flow })
+}
+
+/// The map equation's parts from a partition's module totals (modules in order of first
+/// appearance).
+fn codelength_from(flow: &FlowGraph, totals: &ModuleTotals) -> Codelength {
+    let ModuleTotals { exit, flow: module_flow } = totals;
+    let node_entropy = -flow.flow.iter().map(|&p| plogp(p)).sum::<f64>();
     let total_exit: f64 = exit.iter().sum();
     let index = plogp(total_exit) - exit.iter().map(|&q| plogp(q)).sum::<f64>();
-    let module = exit.iter().zip(&module_flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>()
+    let module = exit.iter().zip(module_flow).map(|(&q, &p)| plogp(q + p)).sum::<f64>()
         - exit.iter().map(|&q| plogp(q)).sum::<f64>()
         + node_entropy;
     Codelength { codelength: index + module, index, module, one_level: node_entropy }
@@ -706,7 +739,7 @@ mod tests {
         let one = map_equation(&graph, &[0; 6]);
         assert!((one.codelength - one.one_level).abs() < 1e-12);
         assert!(
-            (FlowGraph::from_graph(&graph).module_terms(&labels) + length.one_level - length.codelength)
+            (FlowGraph::from_graph(&graph).module_terms(&labels).0 + length.one_level - length.codelength)
                 .abs()
                 < 1e-12
         );
