@@ -2,10 +2,11 @@
 //! resampling stability for 1,000 participants (strata's generator: four planted subgroups,
 //! separation 0.3, 100-region matrices), with the default sweep, trials and Infomap.
 //!
-//! `cargo bench --bench validation -- NULLS SUBSAMPLES [PARTICIPANTS]` times NULLS null cohorts
+//! `cargo bench --bench validation -- NULLS SUBSAMPLES [PARTICIPANTS [TRIALS]]` times NULLS null cohorts
 //! and SUBSAMPLES subsamples and prints `key value` lines: seconds of each part, seconds per
 //! draw and per subsample, and the projection to the 200 null cohorts plus 100
 //! subsamples (per-draw seconds times the count: draws are independent and equally costly).
+//! TRIALS (default: strata's default trials per density) measures what `--trials` buys.
 
 use std::time::Instant;
 
@@ -19,6 +20,7 @@ fn main() {
     let nulls: usize = args.first().and_then(|a| a.parse().ok()).unwrap_or(20);
     let subsamples: usize = args.get(1).and_then(|a| a.parse().ok()).unwrap_or(10);
     let participants: usize = args.get(2).and_then(|a| a.parse().ok()).unwrap_or(1000);
+    let trials: usize = args.get(3).and_then(|a| a.parse().ok()).unwrap_or(strata::config::DEFAULT_TRIALS);
     let scenario = Scenario {
         participant_count: participants,
         subgroup_proportions: vec![0.25; 4],
@@ -29,12 +31,13 @@ fn main() {
     let similarity = pearson(&features);
     let (_, inverse) = standardise_rows(&features);
     let norms: Vec<f64> = inverse.iter().map(|v| 1.0 / v).collect();
-    let options = CommunityOptions::default();
+    let options = CommunityOptions { trials, ..CommunityOptions::default() };
     let started = Instant::now();
     let observed = detect(&similarity, &options).expect("planted cohort has edges");
     let detect_seconds = started.elapsed().as_secs_f64();
     println!("participants {participants}");
     println!("threads {}", rayon::current_num_threads());
+    println!("trials_per_density {trials}");
     println!("detect_seconds {detect_seconds:.2}");
     println!("communities {}", observed.partition.community_count());
     let started = Instant::now();
