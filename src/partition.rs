@@ -145,13 +145,12 @@ pub fn partition(options: &PartitionOptions) -> Result<PartitionOutcome, Error> 
         graph.weights.iter_mut().for_each(|weight| *weight = 1.0);
     }
     let method = options.method;
+    let prepared = method.prepare(&graph);
     let trials: Vec<(Vec<usize>, f64)> = (0..options.trials as u64)
         .into_par_iter()
         .map(|trial| {
             let mut rng = crate::seed::rng(options.seed, "partition", &[trial]);
-            let labels = method.run(&graph, options.resolution, &mut rng);
-            let quality = method.quality(&graph, &labels, options.resolution);
-            (labels, quality)
+            method.run_prepared(&prepared, options.resolution, &mut rng)
         })
         .collect();
     let mut best_trial = 0;
