@@ -48,6 +48,8 @@ pub struct PowerOptions {
     pub null_draws: usize,
     /// Community-detection method.
     pub method: Method,
+    /// Seeded trials per graph of the sweep (as `strata run --trials`).
+    pub trials: usize,
     /// Significance level.
     pub alpha: f64,
     /// Seed of the simulation.
@@ -67,6 +69,8 @@ pub struct PowerReport {
     pub cohorts: usize,
     /// Null cohorts per simulated cohort.
     pub null_draws: usize,
+    /// Trials per graph of the sweep.
+    pub trials: usize,
     /// Mean ARI of the communities with the planted subgroups (NaN without subgroups).
     pub mean_ari: f64,
     /// 10th and 90th percentile of the ARI.
@@ -96,8 +100,8 @@ impl PowerReport {
             )
         };
         let mut text = format!(
-            "Simulated {} cohorts of {} participants: {planted}; {} null cohorts each.\n",
-            self.cohorts, self.participants, self.null_draws
+            "Simulated {} cohorts of {} participants: {planted}; {} null cohorts each; {} trials per graph of the sweep.\n",
+            self.cohorts, self.participants, self.null_draws, self.trials
         );
         if !self.proportions.is_empty() {
             text += &format!(
@@ -145,7 +149,8 @@ pub fn simulate(options: &PowerOptions) -> Result<PowerReport, Error> {
         ..Scenario::default()
     };
     scenario.validate()?;
-    let community_options = CommunityOptions { method: options.method, ..CommunityOptions::default() };
+    let community_options =
+        CommunityOptions { method: options.method, trials: options.trials, ..CommunityOptions::default() };
     // Cohorts run one after another; each uses every core for its own sweep and null draws.
     let outcomes: Vec<Result<(f64, usize, bool), Error>> = (0..options.cohorts)
         .map(|cohort| {
@@ -198,6 +203,7 @@ pub fn simulate(options: &PowerOptions) -> Result<PowerReport, Error> {
         separation: options.separation,
         cohorts: options.cohorts,
         null_draws: options.null_draws,
+        trials: options.trials,
         mean_ari: if finite.is_empty() { f64::NAN } else { finite.iter().sum::<f64>() / finite.len() as f64 },
         ari_range: (
             crate::validation::quantile_sorted(&finite, 0.1),

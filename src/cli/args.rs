@@ -331,6 +331,9 @@ pub struct PowerArgs {
     /// Community-detection method.
     #[arg(long, value_enum, value_name = "METHOD", default_value_t = config::DEFAULT_METHOD)]
     pub method: crate::communities::Method,
+    /// Seeded trials per graph of the sweep (plan with the `--trials` of your runs).
+    #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_TRIALS)]
+    pub trials: usize,
     /// Significance level of the null test.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA)]
     pub alpha: f64,
@@ -357,6 +360,9 @@ impl PowerArgs {
         }
         if self.cohorts == 0 {
             return Err(invalid("--cohorts", "must be at least 1".to_string()));
+        }
+        if self.trials == 0 {
+            return Err(invalid("--trials", "must be at least 1".to_string()));
         }
         if self.null_draws == 0 {
             return Err(invalid(
@@ -407,6 +413,7 @@ impl PowerArgs {
             cohorts: self.cohorts,
             null_draws: self.null_draws,
             method: self.method,
+            trials: self.trials,
             alpha: self.alpha,
             seed: self.seed,
         })
