@@ -50,6 +50,10 @@ pub struct PowerOptions {
     pub method: Method,
     /// Seeded trials per graph of the sweep (as `strata run --trials`).
     pub trials: usize,
+    /// Patient-minus-comparison difference planted on the generator's affected edges, in Fisher
+    /// z (0: the subgroups are the only group structure, so that without subgroups the cohort
+    /// is one population and the rate is a false-positive rate).
+    pub diagnosis_effect: f64,
     /// Significance level.
     pub alpha: f64,
     /// Seed of the simulation.
@@ -71,6 +75,8 @@ pub struct PowerReport {
     pub null_draws: usize,
     /// Trials per graph of the sweep.
     pub trials: usize,
+    /// Patient-minus-comparison difference planted, in Fisher z.
+    pub diagnosis_effect: f64,
     /// Mean ARI of the communities with the planted subgroups (NaN without subgroups).
     pub mean_ari: f64,
     /// 10th and 90th percentile of the ARI.
@@ -111,7 +117,19 @@ impl PowerReport {
         } else {
             text += &format!("Mean communities found {:.2}.\n", self.mean_communities);
         }
-        let what = if self.proportions.is_empty() { "false-positive rate" } else { "power" };
+        if self.diagnosis_effect != 0.0 {
+            text += &format!(
+                "A patient-minus-comparison difference of {} Fisher z is planted on the generator's affected edges: it is group structure of its own, which the null test may detect with or without subgroups.\n",
+                self.diagnosis_effect
+            );
+        }
+        let what = if !self.proportions.is_empty() {
+            "power"
+        } else if self.diagnosis_effect == 0.0 {
+            "false-positive rate"
+        } else {
+            "rate"
+        };
         text += &format!(
             "Null test supported subgroups in {} of {} cohorts: {what} {:.2} (95% Wilson interval {:.2}-{:.2}).\n",
             self.supported, self.cohorts, self.rate, self.rate_interval.0, self.rate_interval.1
@@ -144,6 +162,7 @@ pub fn simulate(options: &PowerOptions) -> Result<PowerReport, Error> {
         participant_count: options.participants,
         subgroup_proportions: options.proportions.clone(),
         separation: if options.proportions.is_empty() { 0.0 } else { options.separation },
+        diagnosis_effect: options.diagnosis_effect,
         region_count: options.regions,
         seed: options.seed,
         ..Scenario::default()
@@ -204,6 +223,7 @@ pub fn simulate(options: &PowerOptions) -> Result<PowerReport, Error> {
         cohorts: options.cohorts,
         null_draws: options.null_draws,
         trials: options.trials,
+        diagnosis_effect: options.diagnosis_effect,
         mean_ari: if finite.is_empty() { f64::NAN } else { finite.iter().sum::<f64>() / finite.len() as f64 },
         ari_range: (
             crate::validation::quantile_sorted(&finite, 0.1),

@@ -334,6 +334,11 @@ pub struct PowerArgs {
     /// Seeded trials per graph of the sweep (plan with the `--trials` of your runs).
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_TRIALS)]
     pub trials: usize,
+    /// Patient-minus-comparison difference in Fisher z planted on the generator's affected
+    /// edges for half the participants; 0 (the default) keeps the subgroups the only group
+    /// structure, so that without --proportions the rate is a false-positive rate.
+    #[arg(long, value_name = "Z", default_value_t = 0.0)]
+    pub diagnosis_effect: f64,
     /// Significance level of the null test.
     #[arg(long, value_name = "NUM", default_value_t = config::DEFAULT_ALPHA)]
     pub alpha: f64,
@@ -363,6 +368,12 @@ impl PowerArgs {
         }
         if self.trials == 0 {
             return Err(invalid("--trials", "must be at least 1".to_string()));
+        }
+        if !self.diagnosis_effect.is_finite() {
+            return Err(invalid(
+                "--diagnosis-effect",
+                format!("{} must be a finite number (Fisher z)", self.diagnosis_effect),
+            ));
         }
         if self.null_draws == 0 {
             return Err(invalid(
@@ -414,6 +425,7 @@ impl PowerArgs {
             null_draws: self.null_draws,
             method: self.method,
             trials: self.trials,
+            diagnosis_effect: self.diagnosis_effect,
             alpha: self.alpha,
             seed: self.seed,
         })
