@@ -8,7 +8,7 @@ use std::path::Path;
 use std::process::Command;
 
 use ndarray::{Array2, Array3, Array4};
-use util::cli::{matrix_cohort, strata, text};
+use util::cli::{assert_nothing_written, fail, matrix_cohort, strata, text};
 
 fn run_args(out: &str) -> Vec<&str> {
     vec![
@@ -28,19 +28,8 @@ fn run_args(out: &str) -> Vec<&str> {
 
 /// Runs and checks: the exit code, every expected fragment in standard error, no output folder.
 fn expect_failure(dir: &Path, args: &[&str], code: i32, fragments: &[&str]) {
-    let output = strata(args, dir);
-    let (_, stderr) = text(&output);
-    assert_eq!(output.status.code(), Some(code), "stderr: {stderr}");
-    for fragment in fragments {
-        assert!(stderr.contains(fragment), "expected '{fragment}' in: {stderr}");
-    }
-    assert!(!stderr.contains("panicked"), "{stderr}");
-    assert!(!dir.join("out").exists(), "nothing may be written on failure");
-    let partial = std::fs::read_dir(dir)
-        .unwrap()
-        .flatten()
-        .any(|entry| entry.file_name().to_string_lossy().contains("strata-partial"));
-    assert!(!partial, "no staging folder may be left behind");
+    fail(args, dir, code, fragments);
+    assert_nothing_written(dir);
 }
 
 #[test]

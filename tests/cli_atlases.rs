@@ -16,25 +16,13 @@ use std::path::{Path, PathBuf};
 use ndarray::Array3;
 use serde_json::Value;
 use sha2::{Digest, Sha256};
-use util::cli::{strata, text};
+use util::cli::{fail, strata, text};
 
 fn succeed(args: &[&str], cwd: &Path) -> String {
     let output = strata(args, cwd);
     let (stdout, stderr) = text(&output);
     assert!(output.status.success(), "strata {args:?} failed:\n{stderr}");
     stdout
-}
-
-/// Runs and checks the exit code and every fragment of standard error; returns standard error.
-fn fail(args: &[&str], cwd: &Path, code: i32, fragments: &[&str]) -> String {
-    let output = strata(args, cwd);
-    let (_, stderr) = text(&output);
-    assert_eq!(output.status.code(), Some(code), "strata {args:?}:\n{stderr}");
-    for fragment in fragments {
-        assert!(stderr.contains(fragment), "expected '{fragment}' in:\n{stderr}");
-    }
-    assert!(!stderr.contains("panicked"), "{stderr}");
-    stderr
 }
 
 fn root(path: &str) -> PathBuf {

@@ -8,7 +8,7 @@
 mod util;
 
 use std::path::{Path, PathBuf};
-use util::cli::strata;
+use util::cli::{assert_nothing_written, strata};
 
 fn data(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data").join(name)
@@ -33,13 +33,7 @@ fn fails(dir: &Path, extra: &[&str], code: i32) -> String {
     let output = strata(&args, dir);
     let stderr = String::from_utf8_lossy(&output.stderr).into_owned();
     assert_eq!(output.status.code(), Some(code), "{args:?}: {stderr}");
-    assert!(!dir.join("out").exists(), "nothing is written on failure: {args:?}");
-    let leftovers: Vec<_> = std::fs::read_dir(dir)
-        .unwrap()
-        .filter_map(|entry| entry.ok())
-        .filter(|entry| entry.file_name().to_string_lossy().contains("strata-partial"))
-        .collect();
-    assert!(leftovers.is_empty(), "no staging folder is left behind");
+    assert_nothing_written(dir);
     stderr
 }
 

@@ -18,6 +18,29 @@ pub fn text(output: &Output) -> (String, String) {
     )
 }
 
+/// Runs strata expecting failure: checks the exit code, every fragment in standard error and
+/// that nothing panicked; returns standard error.
+pub fn fail(args: &[&str], cwd: &Path, code: i32, fragments: &[&str]) -> String {
+    let output = strata(args, cwd);
+    let (_, stderr) = text(&output);
+    assert_eq!(output.status.code(), Some(code), "strata {args:?}:\n{stderr}");
+    for fragment in fragments {
+        assert!(stderr.contains(fragment), "expected '{fragment}' in:\n{stderr}");
+    }
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    stderr
+}
+
+/// After a failed run into `dir/out`: neither the output folder nor a staging folder exists.
+pub fn assert_nothing_written(dir: &Path) {
+    assert!(!dir.join("out").exists(), "nothing may be written on failure");
+    let partial = std::fs::read_dir(dir)
+        .unwrap()
+        .flatten()
+        .any(|entry| entry.file_name().to_string_lossy().contains("strata-partial"));
+    assert!(!partial, "no staging folder may be left behind");
+}
+
 /// A small valid matrix cohort in `dir`: `count` participants with 6-region `.npy` matrices,
 /// alternating diagnoses, and `participants.tsv`; returns the matrix paths.
 pub fn matrix_cohort(dir: &Path, count: usize) -> Vec<PathBuf> {
