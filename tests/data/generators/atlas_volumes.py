@@ -116,18 +116,24 @@ def label_record(name, source_files, centres, radii, labels):
     return record
 
 
+def write_sphere_atlas(reference, name, source, centres, radii, description):
+    """Writes atlases/NAME/NAME_labels_2mm.nii.gz from sphere centres and radii (mm) and records
+    it in `reference` under NAME."""
+    labels = sphere_labels(centres, radii)
+    path = ROOT / "atlases" / name / f"{name}_labels_2mm.nii.gz"
+    raw = write_nifti_gz(path, labels, f"{description}, MNI152 2 mm", NIFTI_INTENT_LABEL)
+    record = label_record(name, [source], centres, radii, labels)
+    record["sha256_uncompressed"] = sha256_bytes(raw)
+    reference[name] = record
+
+
 def dosenbach(reference):
     source = DATA / "dosenbach_2010.csv"
     with source.open() as f:
         rows = list(csv.DictReader(f))
     centres = np.array([[float(r["x"]), float(r["y"]), float(r["z"])] for r in rows])
     radii = [DOSENBACH_RADIUS_MM] * len(rows)
-    labels = sphere_labels(centres, radii)
-    path = ROOT / "atlases" / "dosenbach160" / "dosenbach160_labels_2mm.nii.gz"
-    raw = write_nifti_gz(path, labels, "Dosenbach 160, 5 mm spheres, MNI152 2 mm", NIFTI_INTENT_LABEL)
-    record = label_record("dosenbach160", [source], centres, radii, labels)
-    record["sha256_uncompressed"] = sha256_bytes(raw)
-    reference["dosenbach160"] = record
+    write_sphere_atlas(reference, "dosenbach160", source, centres, radii, "Dosenbach 160, 5 mm spheres")
 
 
 def seitzman(reference):
@@ -137,12 +143,7 @@ def seitzman(reference):
         rows = [dict(zip(header, line.split())) for line in f if line.strip()]
     centres = np.array([[float(r["x"]), float(r["y"]), float(r["z"])] for r in rows])
     radii = [float(r["radius(mm)"]) for r in rows]
-    labels = sphere_labels(centres, radii)
-    path = ROOT / "atlases" / "seitzman300" / "seitzman300_labels_2mm.nii.gz"
-    raw = write_nifti_gz(path, labels, "Seitzman 300, source radii, MNI152 2 mm", NIFTI_INTENT_LABEL)
-    record = label_record("seitzman300", [source], centres, radii, labels)
-    record["sha256_uncompressed"] = sha256_bytes(raw)
-    reference["seitzman300"] = record
+    write_sphere_atlas(reference, "seitzman300", source, centres, radii, "Seitzman 300, source radii")
 
 
 def mni152_mask(reference):
