@@ -13,7 +13,8 @@
 //! The optimiser is the published one: greedy moves of nodes between modules with repeated
 //! aggregation (the core loop), then alternating fine tuning (single nodes moved again from the
 //! current modules) and coarse tuning (each module split into sub-modules, which are moved as
-//! units) while the codelength keeps falling.
+//! units) while the codelength keeps falling. As in the `infomap` package, a moving pass
+//! evaluates a node again only after one of its neighbours moved (see [`local_moving`]).
 
 use rand::seq::SliceRandom;
 use rand::Rng;
@@ -461,6 +462,10 @@ impl NeighbourFlow {
 
 /// Greedy local moving from `labels` (module per node, values < node count). Returns whether any
 /// node moved.
+///
+/// As in the `infomap` package's local moving (version 2, its `InfomapOptimizer`), a node is
+/// evaluated only while it is dirty: at the start, and again after a neighbour moved; it turns
+/// clean once evaluated without moving.
 fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) -> bool {
     let n = graph.len();
     let mut modules = Modules::new(graph, labels, n);
@@ -470,10 +475,16 @@ fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) ->
     let (mut candidates, mut to_new) = (Vec::<usize>::new(), Vec::<f64>::new());
     let (mut scratch, mut deltas) = (Vec::<f64>::new(), Vec::<f64>::new());
     let mut moved_any = false;
+    // A node is evaluated only while it is dirty: at the start, and again after one of its
+    // neighbours moved; it turns clean when it was evaluated and stayed.
+    let mut dirty = vec![true; n];
     for _ in 0..MAX_PASSES {
         order.shuffle(rng);
         let mut moved = false;
         for &node in &order {
+            if !dirty[node] {
+                continue;
+            }
             let old = labels[node];
             let p = graph.flow[node];
             let out = graph.out[node];
@@ -527,6 +538,11 @@ fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) ->
                 labels[node] = new;
                 moved = true;
                 moved_any = true;
+                for &target in &graph.targets[graph.offsets[node]..graph.offsets[node + 1]] {
+                    dirty[target as usize] = true;
+                }
+            } else {
+                dirty[node] = false;
             }
         }
         if !moved {
