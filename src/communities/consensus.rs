@@ -6,7 +6,7 @@
 //! weights each density by the modularity of its best partition and leaves a density out when
 //! its partition shows no structure: fewer than two communities of at least the minimum size
 //! (collapsed), fewer than [`MIN_ASSIGNED_FRACTION`] of the participants in such communities
-//! (fragmented), or modularity below [`DENSITY_MODULARITY_FLOOR`]. Every Louvain trial of an included density
+//! (fragmented), or modularity below [`DENSITY_MODULARITY_FLOOR`]. Every trial of an included density
 //! enters the co-assignment matrix with weight Q_d / trials. The Lancichinetti-Fortunato
 //! iteration then runs on that matrix. When no density has structure, the consensus is one
 //! community: the honest answer that no subgroups were found.
@@ -33,9 +33,6 @@ pub const DENSITY_MODULARITY_FLOOR: f64 = 0.05;
 /// communities of the minimum size; below it the graph is too sparse and its partition mostly
 /// fragments and isolates (strata's choice: half the cohort, see docs/methods.md).
 pub const MIN_ASSIGNED_FRACTION: f64 = 0.5;
-
-/// Trials of the run's method per consensus iteration on the co-assignment graph.
-pub const CONSENSUS_TRIALS: usize = 10;
 
 /// The consensus iteration stops after this many rounds even if the partitions still disagree
 /// (Lancichinetti & Fortunato 2012 report convergence within a few rounds).
@@ -171,10 +168,10 @@ fn structured(labels: &[usize], min_size: usize) -> bool {
 
 /// Community detection over the density sweep, then the consensus partition.
 ///
-/// For each density (in parallel): the proportional-threshold graph and `trials` seeded Louvain
-/// runs, the best modularity kept. Densities are weighted and selected by the rule in this
+/// For each density in turn: the graph and `trials` seeded runs of the method (in parallel), the
+/// best quality kept. Densities are weighted and selected by the rule in this
 /// module's documentation; the weighted co-assignment matrix D of all their trials is
-/// thresholded at tau, partitioned by Louvain (`CONSENSUS_TRIALS` trials), and D is rebuilt
+/// thresholded at tau, partitioned by the run's method (`trials` trials), and D is rebuilt
 /// from those partitions until they agree (Lancichinetti & Fortunato 2012).
 ///
 /// # Errors
@@ -184,7 +181,8 @@ fn structured(labels: &[usize], min_size: usize) -> bool {
 /// O(D T E) for the sweep (D densities, T trials, E edges) plus O(I n^2) for the consensus.
 ///
 /// # References
-/// Blondel et al. 2008 (Louvain); Lancichinetti & Fortunato 2012, Sci Rep 2:336 (consensus).
+/// Rosvall & Bergstrom 2008 (Infomap), Traag et al. 2019 (Leiden), Blondel et al. 2008
+/// (Louvain); Lancichinetti & Fortunato 2012, Sci Rep 2:336 (consensus).
 pub fn detect(
     similarity: &SimilarityMatrix,
     options: &CommunityOptions,
@@ -290,7 +288,7 @@ pub fn detect_with_weighting(
     while iterations < MAX_CONSENSUS_ITERATIONS {
         iterations += 1;
         let graph = graph_from_coassignment(&matrix, options.consensus_threshold);
-        let results = trials(&graph, options, CONSENSUS_TRIALS, "consensus", iterations as u64);
+        let results = trials(&graph, options, options.trials, "consensus", iterations as u64);
         labels = results[best(&results, options.method)].0.clone();
         let first = renumber(&results[0].0).0;
         let unanimous = results.iter().all(|(other, _)| renumber(other).0 == first);
