@@ -290,25 +290,3 @@ fn one_community_partition_runs_without_panic() {
     assert!(result.subsample_ari.iter().all(|ari| ari.is_finite()));
     assert!(result.confidence.iter().zip(&result.drawn).all(|(c, &d)| (d == 0) == c.is_nan()));
 }
-
-#[test]
-#[ignore = "timing only; run with --release -- --ignored --nocapture"]
-fn seconds_per_subsample_with_default_options() {
-    // Measurement, no assertion: seconds per subsample (fraction 0.8) with the default
-    // community options (20 trials), strata's generator (invented data).
-    for (participants, subsamples) in [(150, 10), (1000, 2)] {
-        let scenario = Scenario { participant_count: participants, ..Scenario::default() };
-        let (features, _) = strata::demo::matrix_features(&scenario);
-        let similarity = pearson(&features);
-        let options = CommunityOptions::default();
-        let partition = detect(&similarity, &options).unwrap().partition;
-        let start = Instant::now();
-        let result = stability(&similarity, &partition, &options, &stability_options(subsamples)).unwrap();
-        let seconds = start.elapsed().as_secs_f64() / subsamples as f64;
-        println!(
-            "N = {participants}: {seconds:.3} s per subsample ({subsamples} subsamples, {} threads), median ARI {:.4}",
-            rayon::current_num_threads(),
-            result.median_ari
-        );
-    }
-}
