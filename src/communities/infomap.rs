@@ -288,7 +288,10 @@ struct Modules {
 }
 
 impl Modules {
-    fn new(graph: &FlowGraph, labels: &[usize], count: usize) -> Self {
+    /// The totals of `labels` (values below `count`) on `graph`; `known`, when given, holds the
+    /// exit and flow per module that [`FlowGraph::module_totals`] computed for the same labels,
+    /// and takes the place of the pass over the links (the same sums in the same order).
+    fn new(graph: &FlowGraph, labels: &[usize], count: usize, known: Option<&ModuleTotals>) -> Self {
         let mut modules = Modules {
             exit: vec![0.0; count],
             flow: vec![0.0; count],
@@ -298,20 +301,28 @@ impl Modules {
             plogp_exit_flow: Vec::new(),
             plogp_total_exit: 0.0,
         };
-        let singletons = count == graph.len() && labels.iter().enumerate().all(|(node, &m)| m == node);
-        for node in 0..graph.len() {
-            let m = labels[node];
-            modules.flow[m] += graph.flow[node];
-            modules.members[m] += 1;
-            if singletons {
-                // Every link leaves the node's own module: the exit is the out-flow, summed
-                // in the same order.
-                modules.exit[m] = graph.out[node];
-                continue;
+        if let Some(known) = known {
+            modules.exit[..known.exit.len()].copy_from_slice(&known.exit);
+            modules.flow[..known.flow.len()].copy_from_slice(&known.flow);
+            for &m in labels {
+                modules.members[m] += 1;
             }
-            for (target, f) in graph.links(node) {
-                if labels[target] != m {
-                    modules.exit[m] += f;
+        } else {
+            let singletons = count == graph.len() && labels.iter().enumerate().all(|(node, &m)| m == node);
+            for node in 0..graph.len() {
+                let m = labels[node];
+                modules.flow[m] += graph.flow[node];
+                modules.members[m] += 1;
+                if singletons {
+                    // Every link leaves the node's own module: the exit is the out-flow, summed
+                    // in the same order.
+                    modules.exit[m] = graph.out[node];
+                    continue;
+                }
+                for (target, f) in graph.links(node) {
+                    if labels[target] != m {
+                        modules.exit[m] += f;
+                    }
                 }
             }
         }
@@ -466,9 +477,14 @@ impl NeighbourFlow {
 /// As in the `infomap` package's local moving (version 2, its `InfomapOptimizer`), a node is
 /// evaluated only while it is dirty: at the start, and again after a neighbour moved; it turns
 /// clean once evaluated without moving.
-fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) -> bool {
+fn local_moving<R: Rng>(
+    graph: &FlowGraph,
+    labels: &mut [usize],
+    known: Option<&ModuleTotals>,
+    rng: &mut R,
+) -> bool {
     let n = graph.len();
-    let mut modules = Modules::new(graph, labels, n);
+    let mut modules = Modules::new(graph, labels, n, known);
     let mut empty: Vec<usize> = (0..n).filter(|&m| modules.members[m] == 0).collect();
     let mut order: Vec<usize> = (0..n).collect();
     let mut neighbours = NeighbourFlow::new(n);
@@ -553,8 +569,14 @@ fn local_moving<R: Rng>(graph: &FlowGraph, labels: &mut [usize], rng: &mut R) ->
 }
 
 /// The core loop: local moving from `initial` (or singletons), then aggregation and moving of
-/// modules until a level moves nothing. Returns a module label per node of `graph`.
-fn core<R: Rng>(graph: &FlowGraph, initial: Option<&[usize]>, rng: &mut R) -> Vec<usize> {
+/// modules until a level moves nothing. `known`: the module totals of `initial` (labels in order
+/// of first appearance) when the caller has them. Returns a module label per node of `graph`.
+fn core<R: Rng>(
+    graph: &FlowGraph,
+    initial: Option<&[usize]>,
+    known: Option<&ModuleTotals>,
+    rng: &mut R,
+) -> Vec<usize> {
     let n = graph.len();
     let mut membership: Vec<usize> = match initial {
         Some(labels) => renumber(labels).0,
@@ -565,7 +587,8 @@ fn core<R: Rng>(graph: &FlowGraph, initial: Option<&[usize]>, rng: &mut R) -> Ve
     let mut level_labels = membership.clone();
     loop {
         let level = aggregated.as_ref().unwrap_or(graph);
-        let moved = local_moving(level, &mut level_labels, rng);
+        let first_known = if aggregated.is_none() { known } else { None };
+        let moved = local_moving(level, &mut level_labels, first_known, rng);
         let (local, count) = renumber(&level_labels);
         let first_level = level.len() == n;
         if first_level {
@@ -597,7 +620,7 @@ fn coarse_tune<R: Rng>(graph: &FlowGraph, labels: &[usize], rng: &mut R) -> Vec<
     let mut local = vec![u32::MAX; graph.len()];
     for (module, nodes) in members.iter().enumerate() {
         let sub = graph.subgraph(nodes, &mut local);
-        let sub_labels = core(&sub, None, rng);
+        let sub_labels = core(&sub, None, None, rng);
         let offset = parent.len();
         let sub_count = sub_labels.iter().copied().max().map_or(0, |max| max + 1);
         for (index, &node) in nodes.iter().enumerate() {
@@ -606,7 +629,7 @@ fn coarse_tune<R: Rng>(graph: &FlowGraph, labels: &[usize], rng: &mut R) -> Vec<
         parent.extend(std::iter::repeat_n(module, sub_count));
     }
     let coarse = graph.aggregate(&submodule, parent.len());
-    let moved = core(&coarse, Some(&parent), rng);
+    let moved = core(&coarse, Some(&parent), None, rng);
     submodule.iter().map(|&s| moved[s]).collect()
 }
 
@@ -670,21 +693,28 @@ fn optimise<R: Rng>(flow: &FlowGraph, rng: &mut R) -> (Vec<usize>, ModuleTotals)
     let tune_threshold = MIN_IMPROVEMENT.max(TUNE_RELATIVE_THRESHOLD * flow.singleton_codelength());
     // Labels are kept in order of first appearance, so the totals of the partition kept are
     // those `map_equation` computes for it.
-    let mut labels = core(flow, None, rng);
+    let mut labels = core(flow, None, None, rng);
     let (mut length, mut totals) = flow.module_terms(&labels);
     for round in 0..MAX_TUNE_ROUNDS {
         let candidate = if round % 2 == 0 {
-            core(flow, Some(&labels), rng)
+            core(flow, Some(&labels), Some(&totals), rng)
         } else {
             renumber(&coarse_tune(flow, &labels, rng)).0
         };
-        let (candidate_length, candidate_totals) = flow.module_terms(&candidate);
-        let gain = length - candidate_length;
-        if gain > MIN_IMPROVEMENT {
-            labels = candidate;
-            length = candidate_length;
-            totals = candidate_totals;
-        }
+        // A round that returned the partition it started from gained nothing; its totals are
+        // not summed again.
+        let gain = if candidate == labels {
+            0.0
+        } else {
+            let (candidate_length, candidate_totals) = flow.module_terms(&candidate);
+            let gain = length - candidate_length;
+            if gain > MIN_IMPROVEMENT {
+                labels = candidate;
+                length = candidate_length;
+                totals = candidate_totals;
+            }
+            gain
+        };
         // Stop once a round gained too little, but only after coarse tuning has been tried.
         if gain <= tune_threshold && round > 0 {
             break;
