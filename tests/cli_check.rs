@@ -172,7 +172,7 @@ fn printed_defaults_are_a_configuration_file() {
     for fragment in [
         "method = \"infomap\"",
         "densities = \"0.05:0.5:0.05\"",
-        "trials = 5",
+        "trials = 4",
         "resolution = 1.0",
         "# One of: infomap, leiden, leiden-cpm, louvain.",
         "participants = \"participants.tsv\"   # required: edit",
