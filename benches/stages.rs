@@ -5,7 +5,9 @@
 //! (91 x 109 x 91 grid, about 230,000 in-mask voxels). `... similarity DIR` reads a generated
 //! cohort, times the similarity step in process, writes the standardised matrix to
 //! DIR/standardised.npy for the numpy comparison, and times single-core gzip decoding of the
-//! inputs. Figures are printed as `key value` lines.
+//! inputs. `... welch` times the Welch comparison of 300 participants x 230,000 features
+//! (groups of 140 and 160; a deterministic synthetic matrix). Figures are printed as `key value`
+//! lines.
 
 use std::io::Read;
 use std::path::{Path, PathBuf};
@@ -162,6 +164,27 @@ fn cpu_seconds() -> f64 {
     (ticks(11) + ticks(12)) / 100.0
 }
 
+/// Seconds of the Welch comparison (means, t, degrees of freedom, p, Hedges g) over 300 x 230,000
+/// features, best of three runs.
+fn welch() {
+    let (rows, cols) = (300, 230_000);
+    let values: Vec<f32> = (0..rows * cols).map(|v| ((v * 7919) % 1009) as f32 * 0.01).collect();
+    let matrix = FeatureMatrix { values: Array2::from_shape_vec((rows, cols), values).unwrap() };
+    let a: Vec<usize> = (0..140).collect();
+    let b: Vec<usize> = (140..rows).collect();
+    let mut best = f64::INFINITY;
+    for _ in 0..3 {
+        let start = Instant::now();
+        let result = strata::stats::welch_comparison(&matrix, &a, &b).expect("two groups");
+        best = best.min(start.elapsed().as_secs_f64());
+        assert_eq!(result.feature_count(), cols);
+    }
+    println!("welch_participants {rows}");
+    println!("welch_features {cols}");
+    println!("threads {}", rayon::current_num_threads());
+    println!("welch_seconds {best:.3}");
+}
+
 fn main() {
     let args: Vec<String> = std::env::args().filter(|arg| arg != "--bench").collect();
     match args.get(1..).unwrap_or_default() {
@@ -175,6 +198,7 @@ fn main() {
             }
         }
         [command, dir] if command == "similarity" => similarity(Path::new(dir)),
-        _ => eprintln!("usage: cargo bench --bench stages -- generate matrices|maps DIR | similarity DIR (see benches/run.sh)"),
+        [command] if command == "welch" => welch(),
+        _ => eprintln!("usage: cargo bench --bench stages -- generate matrices|maps DIR | similarity DIR | welch (see benches/run.sh)"),
     }
 }
