@@ -16,7 +16,7 @@ use rayon::prelude::*;
 
 use super::infomap::map_equation;
 use super::louvain::renumber;
-use super::method::{Method, Objective};
+use super::method::{Method, Objective, Prepared};
 use super::quality::modularity;
 use super::{CommunityError, CommunityOptions, CommunityResult, DensityResult, Partition};
 use crate::graph::{ParticipantGraph, SweepGraphs};
@@ -82,20 +82,20 @@ pub fn coassignment(partitions: &[(Vec<usize>, f64)], node_count: usize) -> Arra
 /// One trial: its labels and the method's quality (codelength or modularity).
 type Trial = (Vec<usize>, f64);
 
-/// Seeded trials of `method`; returns every trial's labels and quality, in trial order.
+/// Seeded trials of `method` on a prepared graph; returns every trial's labels and quality, in
+/// trial order.
 fn trials(
-    graph: &ParticipantGraph,
+    prepared: &Prepared,
     options: &CommunityOptions,
     count: usize,
     stage: &str,
     index: u64,
 ) -> Vec<Trial> {
-    let prepared = options.method.prepare(graph);
     (0..count as u64)
         .into_par_iter()
         .map(|trial| {
             let mut rng = crate::seed::rng(options.seed, stage, &[index, trial]);
-            let result = options.method.run_prepared(&prepared, options.resolution, &mut rng);
+            let result = options.method.run_prepared(prepared, options.resolution, &mut rng);
             crate::report::progress::tick(1);
             result
         })
@@ -224,11 +224,15 @@ pub fn detect_with_weighting(
         .enumerate()
         .map(|(index, &level)| {
             let graph = graphs.graph(level);
-            let results = trials(&graph, options, options.trials, "sweep", index as u64);
+            let prepared = options.method.prepare(&graph);
+            let results = trials(&prepared, options, options.trials, "sweep", index as u64);
             let chosen = best(&results, options.method);
             let (labels, quality) = results[chosen].clone();
-            let codelength =
-                (options.method.objective() == Objective::Codelength).then(|| map_equation(&graph, &labels));
+            // The trials' flow network gives the map equation without building it again.
+            let codelength = match &prepared {
+                Prepared::Flow(network) => Some(network.codelength(&labels)),
+                Prepared::Graph(_) => None,
+            };
             let quality_modularity = modularity(&graph, &labels, options.resolution);
             let community_count = renumber(&labels).1;
             let has_structure = structured(&labels, options.min_community_size)
@@ -288,7 +292,8 @@ pub fn detect_with_weighting(
     while iterations < MAX_CONSENSUS_ITERATIONS {
         iterations += 1;
         let graph = graph_from_coassignment(&matrix, options.consensus_threshold);
-        let results = trials(&graph, options, options.trials, "consensus", iterations as u64);
+        let results =
+            trials(&options.method.prepare(&graph), options, options.trials, "consensus", iterations as u64);
         labels = results[best(&results, options.method)].0.clone();
         let first = renumber(&results[0].0).0;
         let unanimous = results.iter().all(|(other, _)| renumber(other).0 == first);

@@ -669,6 +669,11 @@ impl<'a> FlowNetwork<'a> {
     pub fn new(graph: &'a ParticipantGraph) -> Self {
         FlowNetwork { flow: FlowGraph::from_graph(graph) }
     }
+
+    /// [`map_equation`] of `membership` on this network's graph, without building its flow again.
+    pub fn codelength(&self, membership: &[usize]) -> Codelength {
+        codelength_of(&self.flow, membership)
+    }
 }
 
 /// One seeded [`infomap`] trial on a shared flow network: the module labels and their
