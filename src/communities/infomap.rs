@@ -491,8 +491,6 @@ fn local_moving<R: Rng>(
     let (mut candidates, mut to_new) = (Vec::<usize>::new(), Vec::<f64>::new());
     let (mut scratch, mut deltas) = (Vec::<f64>::new(), Vec::<f64>::new());
     let mut moved_any = false;
-    // A node is evaluated only while it is dirty: at the start, and again after one of its
-    // neighbours moved; it turns clean when it was evaluated and stayed.
     let mut dirty = vec![true; n];
     for _ in 0..MAX_PASSES {
         order.shuffle(rng);
