@@ -20,6 +20,12 @@ use super::ReadError;
 /// a few system calls; no published source.
 const READ_BUFFER_BYTES: usize = 1 << 20;
 
+/// Largest piece of a frame asked of the decoder at once. The gzip checksum and the decoder's
+/// window copy read back what was just decoded, so a piece that stays in the core's L2 cache
+/// keeps them from reaching main memory. Chosen by measurement with `benches/connectivity.sh`
+/// (common practice for cache blocking; no published source).
+const DECODE_PIECE_BYTES: usize = 256 << 10;
+
 /// An open 4D series positioned at its next frame.
 pub struct FrameReader {
     /// The header as read.
@@ -182,26 +188,65 @@ impl FrameReader {
         if self.next == self.frames {
             return Ok(false);
         }
-        let frame = self.next;
+        self.read_values(out)?;
+        self.finish_frame()?;
+        Ok(true)
+    }
+
+    /// Decodes the next frame in consecutive pieces of at most `piece.len()` voxels, handing
+    /// each to `visit` with the file-order index of its first voxel. The frame never sits in
+    /// memory whole: a caller that keeps only part of each frame (or sums of it) touches one
+    /// cache-sized piece at a time. Returns false once every frame was read, as
+    /// [`Self::next_frame`].
+    ///
+    /// # Errors
+    /// As [`Self::next_frame`]; `piece` must not be empty.
+    pub fn next_frame_in_pieces(
+        &mut self,
+        piece: &mut [f32],
+        mut visit: impl FnMut(usize, &[f32]),
+    ) -> Result<bool, ReadError> {
+        if self.next == self.frames {
+            return Ok(false);
+        }
+        let voxels = self.voxel_count();
+        let step = piece.len().max(1);
+        let mut start = 0;
+        while start < voxels {
+            let len = step.min(voxels - start);
+            self.read_values(&mut piece[..len])?;
+            visit(start, &piece[..len]);
+            start += len;
+        }
+        self.finish_frame()?;
+        Ok(true)
+    }
+
+    /// Reads and decodes the next `out.len()` voxels of the current frame.
+    fn read_values(&mut self, out: &mut [f32]) -> Result<(), ReadError> {
+        let size = self.stored.len() / self.voxel_count().max(1);
         // float32 stored as this machine holds it, unscaled: read straight into `out`.
         let direct = self.header.datatype == 16
             && self.little_endian == cfg!(target_endian = "little")
             && self.slope == 1.0
-            && self.inter == 0.0
-            && out.len() * 4 == self.stored.len();
-        let target: &mut [u8] = if direct { bytemuck::cast_slice_mut(out) } else { &mut self.stored };
-        read_full(&mut self.source, target).map_err(|error| ReadError::Invalid {
-            path: self.path.clone(),
-            participant: self.participant.clone(),
-            problem: format!(
-                "cannot read frame {} of {} ({error}); the file is truncated or corrupt: copy it again from its source",
-                frame + 1,
-                self.frames
-            ),
+            && self.inter == 0.0;
+        let stored = &mut self.stored[..out.len() * size];
+        let target: &mut [u8] = if direct { bytemuck::cast_slice_mut(out) } else { stored };
+        let source = &mut self.source;
+        target.chunks_mut(DECODE_PIECE_BYTES).try_for_each(|piece| read_full(source, piece)).map_err(|error| {
+            ReadError::Invalid {
+                path: self.path.clone(),
+                participant: self.participant.clone(),
+                problem: format!(
+                    "cannot read frame {} of {} ({error}); the file is truncated or corrupt: copy it again from its source",
+                    self.next + 1,
+                    self.frames
+                ),
+            }
         })?;
         if !direct {
             decode_values(
-                &self.stored,
+                &self.stored[..out.len() * size],
                 self.header.datatype,
                 self.little_endian,
                 self.slope,
@@ -209,6 +254,12 @@ impl FrameReader {
                 out,
             );
         }
+        Ok(())
+    }
+
+    /// Counts a frame as read; after the last one, reads the rest of the stream so a gzip
+    /// file's checksum is verified.
+    fn finish_frame(&mut self) -> Result<(), ReadError> {
         self.next += 1;
         if self.next == self.frames {
             let mut rest = Vec::new();
@@ -220,7 +271,7 @@ impl FrameReader {
                 ),
             })?;
         }
-        Ok(true)
+        Ok(())
     }
 }
 
