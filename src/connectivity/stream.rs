@@ -15,16 +15,23 @@
 //! voxels in that same frame, so all of them accumulate while the series streams: per voxel,
 //! k + 2 running sums in f64 (Q'y, s'y, y'y). Each series is first shifted by its value in the
 //! first kept frame (the intercept is in Q, so the residuals are unchanged) to keep the
-//! subtraction of sums of squares well conditioned. Frames are decoded in batches of
-//! [`FRAME_BATCH`] and the sums updated one block of voxels at a time, so the per-voxel sums
-//! travel through memory once per batch rather than once per frame.
+//! subtraction of sums of squares well conditioned.
+//!
+//! # Streaming layout
+//! Each frame is decoded in pieces of 65,536 voxels (`PIECE_VOXELS`) that stay in the core's
+//! cache. A piece is cut into blocks of 64 voxels (`VOXEL_BLOCK`), and a block is copied into
+//! the batch only when it differs from the first kept frame: a background block (one finite
+//! value, unchanged) would add exact zeros. After [`FRAME_BATCH`] kept frames, each stored
+//! block's sums are updated over the whole batch at once, so the sums travel through memory
+//! once per batch rather than once per frame. The arithmetic per voxel is the same whatever the
+//! piece size, the thread count or the vector width.
 //!
 //! # Region matrices
 //! The R region means of every kept frame are kept (K x R values, small), then residualised and
 //! correlated at the end.
 //!
-//! Memory per participant: one batch of frames (float32) and k + 3 values per voxel; the
-//! series itself is never held.
+//! Memory per participant: one batch of the blocks that change (float32), k + 2 sums per voxel
+//! of those blocks, and the first kept frame; the series itself is never held.
 
 use std::path::Path;
 
@@ -33,16 +40,23 @@ use super::seed::Regions;
 use super::ConnectivityError;
 use crate::read::frames::FrameReader;
 
-/// Frames decoded before the per-voxel sums are updated: 16 frames of a 91 x 109 x 91 grid are
-/// 58 MB of float32, and the sums then cross memory 16 times less often. Measured in
-/// `benches/connectivity.rs`; no published source.
-pub const FRAME_BATCH: usize = 16;
+/// Kept frames stored before the per-voxel sums are updated (at most 32: one bit per frame marks
+/// what a block stored). The sums then cross memory 32 times less often; 32 frames of 230,000
+/// changing voxels are 29 MB of float32. 32 was faster than 16 and 64 in
+/// `benches/connectivity.sh` (docs/performance.md); no published source.
+pub const FRAME_BATCH: usize = 32;
 
 /// Voxels per block of the batch update: the block's sums (k + 2 rows of f64) and shifted
 /// values (a batch of f64) stay in the core's L1/L2 cache, and a block outside the brain is
 /// skipped whole (a 2 mm grid's rows are 91 voxels). Chosen by measurement with
 /// `benches/connectivity.sh`; common practice for cache blocking.
 const VOXEL_BLOCK: usize = 64;
+
+/// Voxels per piece of a frame handed over by the decoder (256 KB of float32): the piece is
+/// decoded, checksummed and sorted into blocks while it sits in the core's L2 cache, so the
+/// decoded frame itself never travels through main memory. Chosen by measurement with
+/// `benches/connectivity.sh`; common practice for cache blocking.
+const PIECE_VOXELS: usize = 1 << 16;
 
 /// A voxel (or region) whose residual sum of squares is at most this fraction of its sum of
 /// squares about its first kept value is taken as constant after regression (outside the brain,
@@ -96,35 +110,69 @@ fn invalid(path: &Path, participant: &str, problem: String) -> ConnectivityError
 ///
 /// # Complexity
 /// O(T V (k + 2)) arithmetic for T frames, V voxels and k regressors; memory
-/// O(V (FRAME_BATCH / 2 + k + 3)) f64 words.
+/// O(V' (FRAME_BATCH / 2 + k + 2)) f64 words for the V' voxels of blocks that ever change, and
+/// V f32 values for the first kept frame.
 pub fn seed_map(
     path: &Path,
     participant: &str,
     model: &NuisanceModel,
     seed: &[usize],
 ) -> Result<SeedMap, ConnectivityError> {
+    seed_map_in_pieces(path, participant, model, seed, PIECE_VOXELS)
+}
+
+/// [`seed_map`] with frames decoded `piece_voxels` at a time (a multiple of [`VOXEL_BLOCK`]);
+/// tests use small pieces to cross piece boundaries on small grids.
+fn seed_map_in_pieces(
+    path: &Path,
+    participant: &str,
+    model: &NuisanceModel,
+    seed: &[usize],
+    piece_voxels: usize,
+) -> Result<SeedMap, ConnectivityError> {
     let mut reader = open(path, participant, model)?;
     let voxels = reader.voxel_count();
     let rank = model.basis.rank;
     // Coefficients per kept frame: the basis row, then the shifted seed value.
     let width = rank + 1;
-    // Rows 0..rank: Q'y; row rank: s'y; row rank + 1: y'y.
-    let mut sums = vec![0.0f64; (rank + 2) * voxels];
-    let mut batch = vec![0.0f32; FRAME_BATCH * voxels];
+    let mut batch = BlockBatch::new(voxels, rank + 2);
     let mut coefficients = vec![0.0f64; FRAME_BATCH * width];
-    let mut first: Vec<f32> = Vec::new();
+    let mut piece = vec![0.0f32; piece_voxels.max(VOXEL_BLOCK) / VOXEL_BLOCK * VOXEL_BLOCK];
+    // The seed's voxels in file order, each with its place in `seed`, so the frame's seed values
+    // are picked up piece by piece and summed in the caller's order.
+    let mut seed_order: Vec<(usize, usize)> =
+        seed.iter().enumerate().map(|(place, &voxel)| (voxel, place)).collect();
+    seed_order.sort_unstable();
+    let mut seed_values = vec![0.0f64; seed.len()];
+    let mut have_first = false;
     let mut first_seed = 0.0;
     let mut seed_projection = vec![0.0f64; rank];
     let mut seed_squares = 0.0f64;
     let mut filled = 0;
     let mut kept_index = 0;
     for frame in 0..reader.frames {
-        let slot = &mut batch[filled * voxels..(filled + 1) * voxels];
-        reader.next_frame(slot).map_err(ConnectivityError::Read)?;
         if !model.kept[frame] {
+            // Censored: decoded (the stream must be read through) and dropped.
+            reader.next_frame_in_pieces(&mut piece, |_, _| {}).map_err(ConnectivityError::Read)?;
             continue;
         }
-        let total: f64 = seed.iter().map(|&voxel| f64::from(slot[voxel])).sum();
+        let mut next_seed = 0;
+        reader
+            .next_frame_in_pieces(&mut piece, |start, values| {
+                let end = start + values.len();
+                while next_seed < seed_order.len() && seed_order[next_seed].0 < end {
+                    let (voxel, place) = seed_order[next_seed];
+                    seed_values[place] = f64::from(values[voxel - start]);
+                    next_seed += 1;
+                }
+                if have_first {
+                    batch.store(filled, start, values);
+                } else {
+                    batch.set_first(start, values);
+                }
+            })
+            .map_err(ConnectivityError::Read)?;
+        let total: f64 = seed_values.iter().sum();
         if !total.is_finite() {
             return Err(invalid(
                 path,
@@ -138,8 +186,10 @@ pub fn seed_map(
             ));
         }
         let mean = total / seed.len() as f64;
-        if first.is_empty() {
-            first = slot.to_vec();
+        if !have_first {
+            // The first kept frame is the shift: its own shifted values are all zero, so it
+            // takes a slot of the batch (its coefficients) without stored values.
+            have_first = true;
             first_seed = mean;
         }
         let shifted = mean - first_seed;
@@ -154,18 +204,11 @@ pub fn seed_map(
         kept_index += 1;
         filled += 1;
         if filled == FRAME_BATCH {
-            accumulate(
-                &mut sums,
-                &Batch { values: &batch, first: &first, coefficients: &coefficients, filled, voxels, width },
-            );
+            batch.accumulate(&coefficients, filled, width);
             filled = 0;
         }
     }
-    accumulate(
-        &mut sums,
-        &Batch { values: &batch, first: &first, coefficients: &coefficients, filled, voxels, width },
-    );
-    drop(batch);
+    batch.accumulate(&coefficients, filled, width);
 
     let seed_residual = seed_squares - seed_projection.iter().map(|p| p * p).sum::<f64>();
     if seed_residual.is_nan() || seed_residual <= CONSTANT_TOLERANCE * seed_squares {
@@ -184,14 +227,15 @@ pub fn seed_map(
     let mut constant_voxels = 0;
     let mut nonfinite_voxels = 0;
     for (voxel, value) in r.iter_mut().enumerate() {
+        let sum = |row: usize| batch.sum(row, voxel);
         let mut projected = 0.0;
-        let mut cross = sums[rank * voxels + voxel];
+        let mut cross = sum(rank);
         for (j, &seed_q) in seed_projection.iter().enumerate() {
-            let q = sums[j * voxels + voxel];
+            let q = sum(j);
             projected += q * q;
             cross -= seed_q * q;
         }
-        let squares = sums[(rank + 1) * voxels + voxel];
+        let squares = sum(rank + 1);
         let residual = squares - projected;
         if !(cross.is_finite() && residual.is_finite()) {
             nonfinite_voxels += 1;
@@ -204,123 +248,240 @@ pub fn seed_map(
     Ok(SeedMap { r, constant_voxels, nonfinite_voxels })
 }
 
-/// One batch of decoded frames and what the update needs with it.
-struct Batch<'a> {
-    /// `filled` frames of `voxels` values each, frame-major.
-    values: &'a [f32],
-    /// The first kept frame, subtracted from every value (the shift).
-    first: &'a [f32],
-    /// Per frame, `width` coefficients: the basis row, then the shifted seed value.
-    coefficients: &'a [f64],
-    filled: usize,
-    voxels: usize,
-    width: usize,
+/// The voxel values of one batch of frames, kept by block of [`VOXEL_BLOCK`] voxels, and the
+/// per-voxel sums they are added to.
+///
+/// A block stores a frame's values only when they differ from the first kept frame (the shift):
+/// a block that held one finite value in the first kept frame and holds it again (background)
+/// would add exact zeros and is not copied. A block gets a slot the first time it stores in a
+/// batch, and a frame's stored blocks sit side by side in slot order, so a frame is written
+/// sequentially. Sums are laid out block by block; the pages of blocks that never change are
+/// never touched.
+struct BlockBatch {
+    /// FRAME_BATCH frames of `blocks` slots of VOXEL_BLOCK values:
+    /// `values[(f * blocks + slot) * VOXEL_BLOCK + v]`.
+    values: Vec<f32>,
+    /// The block in each slot taken this batch, in slot order.
+    slots: Vec<usize>,
+    /// Per block, its slot this batch (`NO_SLOT` when it stored nothing yet).
+    slot: Vec<u32>,
+    /// Per block, bit f set when frame f of the batch was stored (unset: shifted values all zero).
+    stored: Vec<u32>,
+    /// The first kept frame, padded with zeros to whole blocks.
+    first: Vec<f32>,
+    /// Per block, the one finite value all its voxels held in the first kept frame, if any.
+    uniform: Vec<Option<f32>>,
+    /// Per block, `rows` rows of VOXEL_BLOCK sums: rows 0..k are Q'y, row k is s'y, row k + 1 is y'y.
+    sums: Vec<f64>,
+    /// Per block, whether its sums were written yet. A block's sums are written with zeros
+    /// before they are first read: reading an untouched page first maps the shared zero page,
+    /// and the write after it then costs a copy-on-write fault and a TLB shootdown across the
+    /// process's threads (measured: 8% of a 2-thread run).
+    written: Vec<bool>,
+    rows: usize,
+    blocks: usize,
 }
 
-/// Adds a batch of frames to the per-voxel sums (see [`seed_map`]).
-///
-/// A block whose shifted values are all zero in this batch (background: a voxel equal to its
-/// first kept value) adds nothing and is skipped, which is exact. Frames are taken four at a
-/// time so each sum is loaded and stored once per four frames. Every voxel's sums take the same
-/// operations in the same order at any vector width, so the widest of AVX-512, AVX2 and SSE2
-/// the CPU offers gives identical results.
-fn accumulate(sums: &mut [f64], batch: &Batch) {
-    #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx512f") {
-            // SAFETY: the CPU supports AVX-512F (checked just above).
-            unsafe { accumulate_avx512(sums, batch) };
-            return;
-        }
-        if std::arch::is_x86_feature_detected!("avx2") {
-            // SAFETY: the CPU supports AVX2 (checked just above).
-            unsafe { accumulate_avx2(sums, batch) };
-            return;
+/// Where the values of `slot` in frame `frame` of a batch of `blocks` slots start.
+fn value_offset(slot: usize, frame: usize, blocks: usize) -> usize {
+    (frame * blocks + slot) * VOXEL_BLOCK
+}
+
+/// Slots ahead whose values the batch update asks the cache for.
+const PREFETCH_AHEAD: usize = 4;
+
+/// A block without a slot in the current batch.
+const NO_SLOT: u32 = u32::MAX;
+
+const _: () = assert!(FRAME_BATCH <= u32::BITS as usize, "one bit per frame of a batch");
+
+impl BlockBatch {
+    fn new(voxels: usize, rows: usize) -> Self {
+        let blocks = voxels.div_ceil(VOXEL_BLOCK);
+        BlockBatch {
+            values: vec![0.0; FRAME_BATCH * blocks * VOXEL_BLOCK],
+            slots: Vec::new(),
+            slot: vec![NO_SLOT; blocks],
+            stored: vec![0; blocks],
+            first: vec![0.0; blocks * VOXEL_BLOCK],
+            uniform: vec![None; blocks],
+            sums: vec![0.0; blocks * rows * VOXEL_BLOCK],
+            written: vec![false; blocks],
+            rows,
+            blocks,
         }
     }
-    accumulate_lanes(sums, batch);
+
+    /// Takes a piece of the first kept frame, `start` a multiple of VOXEL_BLOCK.
+    fn set_first(&mut self, start: usize, values: &[f32]) {
+        self.first[start..start + values.len()].copy_from_slice(values);
+        for (offset, block) in values.chunks(VOXEL_BLOCK).enumerate() {
+            let u = block[0];
+            let same = block.iter().fold(u.is_finite(), |all, &value| all & (value == u));
+            self.uniform[start / VOXEL_BLOCK + offset] = same.then_some(u);
+        }
+    }
+
+    /// Stores a piece of the batch's frame `frame`, `start` a multiple of VOXEL_BLOCK.
+    fn store(&mut self, frame: usize, start: usize, values: &[f32]) {
+        for (offset, block) in values.chunks(VOXEL_BLOCK).enumerate() {
+            let index = start / VOXEL_BLOCK + offset;
+            if let Some(u) = self.uniform[index] {
+                // No early exit: a fold over the whole block vectorises.
+                if block.iter().fold(true, |all, &value| all & (value == u)) {
+                    continue;
+                }
+            }
+            if self.slot[index] == NO_SLOT {
+                self.slot[index] = self.slots.len() as u32;
+                self.slots.push(index);
+            }
+            let at = value_offset(self.slot[index] as usize, frame, self.blocks);
+            self.values[at..at + block.len()].copy_from_slice(block);
+            self.stored[index] |= 1 << frame;
+        }
+    }
+
+    /// The sum of `row` for `voxel`.
+    fn sum(&self, row: usize, voxel: usize) -> f64 {
+        let block = voxel / VOXEL_BLOCK;
+        self.sums[(block * self.rows + row) * VOXEL_BLOCK + voxel % VOXEL_BLOCK]
+    }
+
+    /// Adds the batch's `filled` frames to the sums and empties the batch; `coefficients` holds
+    /// `width` per frame (the basis row, then the shifted seed value).
+    fn accumulate(&mut self, coefficients: &[f64], filled: usize, width: usize) {
+        debug_assert_eq!(width + 1, self.rows);
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx512f") {
+                // SAFETY: the CPU supports AVX-512F (checked just above).
+                unsafe { accumulate_avx512(self, coefficients, filled) };
+                return;
+            }
+            if std::arch::is_x86_feature_detected!("avx2") {
+                // SAFETY: the CPU supports AVX2 (checked just above).
+                unsafe { accumulate_avx2(self, coefficients, filled) };
+                return;
+            }
+        }
+        accumulate_lanes(self, coefficients, filled);
+    }
 }
 
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx512f")]
-fn accumulate_avx512(sums: &mut [f64], batch: &Batch) {
-    accumulate_lanes(sums, batch);
+fn accumulate_avx512(batch: &mut BlockBatch, coefficients: &[f64], filled: usize) {
+    accumulate_lanes(batch, coefficients, filled);
 }
 
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
-fn accumulate_avx2(sums: &mut [f64], batch: &Batch) {
-    accumulate_lanes(sums, batch);
+fn accumulate_avx2(batch: &mut BlockBatch, coefficients: &[f64], filled: usize) {
+    accumulate_lanes(batch, coefficients, filled);
 }
 
-/// The body of [`accumulate`], inlined into each target-feature variant so the compiler
-/// vectorises it at that width.
+/// The body of [`BlockBatch::accumulate`], inlined into each target-feature variant so the
+/// compiler vectorises it at that width. Every voxel's sums take the same operations in the
+/// same order at any vector width, so the widest of AVX-512, AVX2 and SSE2 the CPU offers gives
+/// identical results.
 #[inline(always)]
-fn accumulate_lanes(sums: &mut [f64], batch: &Batch) {
-    let Batch { values: batch, first, coefficients, filled, voxels, width } = *batch;
+fn accumulate_lanes(batch: &mut BlockBatch, coefficients: &[f64], filled: usize) {
     if filled == 0 {
         return;
     }
-    // Whole blocks as fixed-size arrays, so the loops below have constant bounds and vectorise.
+    let rows = batch.rows;
+    let width = rows - 1;
     let mut shifted = vec![[0.0f64; VOXEL_BLOCK]; filled];
-    let mut start = 0;
-    while start < voxels {
-        let len = VOXEL_BLOCK.min(voxels - start);
-        let base = &first[start..start + len];
-        let mut any = false;
+    for (slot, &index) in batch.slots.iter().enumerate() {
+        #[cfg(target_arch = "x86_64")]
+        if slot + PREFETCH_AHEAD < batch.slots.len() {
+            let ahead = slot + PREFETCH_AHEAD;
+            let stored = batch.stored[batch.slots[ahead]];
+            for frame in 0..filled {
+                if stored & (1 << frame) != 0 {
+                    let at = value_offset(ahead, frame, batch.blocks);
+                    for line in (0..VOXEL_BLOCK).step_by(16) {
+                        let pointer = batch.values[at + line..].as_ptr().cast::<i8>();
+                        // SAFETY: a prefetch is a hint; it reads nothing and cannot fault.
+                        unsafe {
+                            std::arch::x86_64::_mm_prefetch::<{ std::arch::x86_64::_MM_HINT_T0 }>(pointer)
+                        };
+                    }
+                }
+            }
+        }
+        let stored = batch.stored[index];
+        let base: &[f32; VOXEL_BLOCK] =
+            batch.first[index * VOXEL_BLOCK..(index + 1) * VOXEL_BLOCK].try_into().expect("whole block");
         for (frame, target) in shifted.iter_mut().enumerate() {
-            let values = &batch[frame * voxels + start..frame * voxels + start + len];
+            if stored & (1 << frame) == 0 {
+                *target = [0.0; VOXEL_BLOCK];
+                continue;
+            }
+            let at = value_offset(slot, frame, batch.blocks);
+            let values: &[f32; VOXEL_BLOCK] =
+                batch.values[at..at + VOXEL_BLOCK].try_into().expect("whole block");
             for ((out, &value), &origin) in target.iter_mut().zip(values).zip(base) {
                 *out = f64::from(value) - f64::from(origin);
             }
-            // No early exit: a fold over the whole block vectorises, `any` would not.
-            any |= target[..len].iter().fold(false, |seen, &value| seen | (value != 0.0));
         }
-        if any {
-            // Rows 0..width take coefficient * y; row `width` (y'y) takes y * y. Lanes past
-            // `len` (the grid's last block) compute on stale values and are never stored.
-            for row in 0..=width {
-                let target = &mut sums[row * voxels + start..row * voxels + start + len];
-                let mut lanes = [0.0f64; VOXEL_BLOCK];
-                lanes[..len].copy_from_slice(target);
-                let coefficient = |frame: usize| coefficients[frame * width + row];
-                let mut frame = 0;
-                while frame + 4 <= filled {
-                    let (a, b, c, d) =
-                        (&shifted[frame], &shifted[frame + 1], &shifted[frame + 2], &shifted[frame + 3]);
-                    if row == width {
-                        for v in 0..VOXEL_BLOCK {
-                            lanes[v] += a[v] * a[v] + b[v] * b[v] + c[v] * c[v] + d[v] * d[v];
-                        }
-                    } else {
-                        let (c0, c1, c2, c3) = (
-                            coefficient(frame),
-                            coefficient(frame + 1),
-                            coefficient(frame + 2),
-                            coefficient(frame + 3),
-                        );
-                        for v in 0..VOXEL_BLOCK {
-                            lanes[v] += c0 * a[v] + c1 * b[v] + c2 * c[v] + c3 * d[v];
-                        }
-                    }
-                    frame += 4;
-                }
-                for (frame, a) in shifted.iter().enumerate().skip(frame) {
-                    if row == width {
-                        for v in 0..VOXEL_BLOCK {
-                            lanes[v] += a[v] * a[v];
-                        }
-                    } else {
-                        let c0 = coefficient(frame);
-                        for v in 0..VOXEL_BLOCK {
-                            lanes[v] += c0 * a[v];
-                        }
-                    }
-                }
-                target.copy_from_slice(&lanes[..len]);
+        batch.stored[index] = 0;
+        batch.slot[index] = NO_SLOT;
+        // Rows 0..width take coefficient * y; row `width` (y'y) takes y * y. Lanes past the
+        // grid's last voxel compute on padding and are never read.
+        let sums = &mut batch.sums[index * rows * VOXEL_BLOCK..(index + 1) * rows * VOXEL_BLOCK];
+        if !batch.written[index] {
+            sums.fill(0.0);
+            batch.written[index] = true;
+        }
+        for (row, lanes) in sums.chunks_exact_mut(VOXEL_BLOCK).enumerate() {
+            let lanes: &mut [f64; VOXEL_BLOCK] = lanes.try_into().expect("whole block");
+            let coefficient = |frame: usize| coefficients[frame * width + row];
+            update_block(lanes, &shifted, coefficient, row == width);
+        }
+    }
+    batch.slots.clear();
+}
+
+/// One row of one block's sums over a batch: `lanes[v] += c(t) * y_t[v]` over frames t, or
+/// `y_t[v]^2` when `squares` (the y'y row). Frames are taken four at a time, so each sum is
+/// loaded and stored once per four frames even where the compiler keeps them in memory.
+#[inline(always)]
+fn update_block(
+    lanes: &mut [f64; VOXEL_BLOCK],
+    shifted: &[[f64; VOXEL_BLOCK]],
+    coefficient: impl Fn(usize) -> f64,
+    squares: bool,
+) {
+    let filled = shifted.len();
+    let mut frame = 0;
+    while frame + 4 <= filled {
+        let (a, b, c, d) = (&shifted[frame], &shifted[frame + 1], &shifted[frame + 2], &shifted[frame + 3]);
+        if squares {
+            for v in 0..VOXEL_BLOCK {
+                lanes[v] += a[v] * a[v] + b[v] * b[v] + c[v] * c[v] + d[v] * d[v];
+            }
+        } else {
+            let (c0, c1, c2, c3) =
+                (coefficient(frame), coefficient(frame + 1), coefficient(frame + 2), coefficient(frame + 3));
+            for v in 0..VOXEL_BLOCK {
+                lanes[v] += c0 * a[v] + c1 * b[v] + c2 * c[v] + c3 * d[v];
             }
         }
-        start += len;
+        frame += 4;
+    }
+    for (frame, a) in shifted.iter().enumerate().skip(frame) {
+        if squares {
+            for v in 0..VOXEL_BLOCK {
+                lanes[v] += a[v] * a[v];
+            }
+        } else {
+            let c0 = coefficient(frame);
+            for v in 0..VOXEL_BLOCK {
+                lanes[v] += c0 * a[v];
+            }
+        }
     }
 }
 
@@ -347,19 +508,23 @@ pub fn region_matrix(
     let kept = model.kept_count();
     // series[t * R + region]: the region means of kept frame t.
     let mut series = vec![0.0f64; kept * count];
-    let mut frame_values = vec![0.0f32; reader.voxel_count()];
+    let mut piece = vec![0.0f32; PIECE_VOXELS];
     let mut kept_index = 0;
     for frame in 0..reader.frames {
-        reader.next_frame(&mut frame_values).map_err(ConnectivityError::Read)?;
         if !model.kept[frame] {
+            reader.next_frame_in_pieces(&mut piece, |_, _| {}).map_err(ConnectivityError::Read)?;
             continue;
         }
         let target = &mut series[kept_index * count..(kept_index + 1) * count];
-        for (&region, &value) in regions.index.iter().zip(&frame_values) {
-            if region != Regions::BACKGROUND {
-                target[region as usize] += f64::from(value);
-            }
-        }
+        reader
+            .next_frame_in_pieces(&mut piece, |start, values| {
+                for (&region, &value) in regions.index[start..start + values.len()].iter().zip(values) {
+                    if region != Regions::BACKGROUND {
+                        target[region as usize] += f64::from(value);
+                    }
+                }
+            })
+            .map_err(ConnectivityError::Read)?;
         for (sum, &voxel_count) in target.iter_mut().zip(&regions.voxel_counts) {
             *sum /= voxel_count as f64;
         }
@@ -482,5 +647,137 @@ mod tests {
         assert!((matrix.r[1] - 1.0).abs() < 1e-12);
         assert!((matrix.r[2] + 1.0).abs() < 1e-12);
         assert!(matrix.constant_regions.is_empty());
+    }
+
+    /// A 13 x 11 x 7 series (1,001 voxels: 15 whole blocks and one of 41) of 70 frames, value
+    /// of voxel v (file order) at frame t from `value`, written as gzip NIfTI-1 by the nifti
+    /// crate's writer.
+    fn write_series(path: &Path, value: impl Fn(usize, usize) -> f32) {
+        let (nx, ny, nz, frames) = (13, 11, 7, 70);
+        let series = ndarray::Array4::from_shape_fn((nx, ny, nz, frames), |(i, j, k, t)| {
+            value(i + nx * (j + ny * k), t)
+        });
+        nifti::writer::WriterOptions::new(path).write_nifti(&series).unwrap();
+    }
+
+    /// Pearson r of the residuals, computed the direct way (Q'y, then y - Q Q'y, then the
+    /// textbook two-pass correlation) for one voxel's kept values.
+    fn direct_r(y: &[f64], s: &[f64], basis: &super::super::confounds::Basis) -> Option<f64> {
+        let residual = |x: &[f64]| {
+            let mut projection = vec![0.0; basis.rank];
+            for (t, &value) in x.iter().enumerate() {
+                for (p, &q) in projection.iter_mut().zip(basis.row(t)) {
+                    *p += q * value;
+                }
+            }
+            x.iter()
+                .enumerate()
+                .map(|(t, &value)| {
+                    value - basis.row(t).iter().zip(&projection).map(|(q, p)| q * p).sum::<f64>()
+                })
+                .collect::<Vec<f64>>()
+        };
+        let (ry, rs) = (residual(y), residual(s));
+        let syy: f64 = ry.iter().map(|v| v * v).sum();
+        let sss: f64 = rs.iter().map(|v| v * v).sum();
+        let sys: f64 = ry.iter().zip(&rs).map(|(a, b)| a * b).sum();
+        let scale: f64 = y.iter().map(|v| (v - y[0]) * (v - y[0])).sum();
+        // Constant after regression, as the module's rule: residual squares at most
+        // CONSTANT_TOLERANCE of the squares about the first value (zero for a constant series).
+        (syy > CONSTANT_TOLERANCE * scale && scale > 0.0).then(|| sys / (syy * sss).sqrt())
+    }
+
+    #[test]
+    fn seed_maps_equal_the_direct_residual_correlation_whatever_the_piece_size() {
+        // The streamed map (pieces, blocks, background blocks skipped, batches of FRAME_BATCH
+        // frames) against the definition: r of the least-squares residuals (Golub & Van Loan,
+        // Matrix Computations 4th ed. 5.2.8) of each voxel and of the seed mean. Values are
+        // invented for this check; voxels cover every path of the block store:
+        // 0..200 zero throughout (whole background blocks), 200..330 a constant 5 (a block
+        // mixing 0 and 5 is stored but constant), 150 zero until frame 40 then signal (in an
+        // all-zero block, which starts storing mid-batch), 520 NaN in kept frame 45 (non-finite),
+        // 530 NaN in censored frame 17 only (finite), 636..646 the seed (across the boundary of
+        // pieces of 64 and 128 voxels, listed in reverse).
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("sub-01_bold.nii.gz");
+        let noise = |v: usize, t: usize| {
+            let x = ((v * 7919 + t * 104_729) % 1_000_003) as f64 / 1_000_003.0;
+            (x * std::f64::consts::TAU).sin()
+        };
+        let seed_signal = |t: usize| (t as f64 * 0.37).sin() * 2.0;
+        let drift = |t: usize| t as f64 / 70.0;
+        let value = |v: usize, t: usize| -> f32 {
+            match v {
+                150 if t < 40 => 0.0,
+                0..=149 | 151..=199 => 0.0,
+                200..=329 => 5.0,
+                520 if t == 45 => f32::NAN,
+                530 if t == 17 => f32::NAN,
+                _ => (100.0 + (v % 5) as f64 * seed_signal(t) + 3.0 * drift(t) + noise(v, t)) as f32,
+            }
+        };
+        write_series(&path, value);
+        let censored = [0usize, 17, 33, 64];
+        let kept: Vec<bool> = (0..70).map(|t| !censored.contains(&t)).collect();
+        let kept_frames: Vec<usize> = (0..70).filter(|&t| kept[t]).collect();
+        let drift_column: Vec<f64> = kept_frames.iter().map(|&t| drift(t)).collect();
+        let model = NuisanceModel {
+            kept: kept.clone(),
+            confounds: Confounds::default(),
+            basis: orthonormal_basis(&[drift_column], kept_frames.len()),
+        };
+        let seed: Vec<usize> = (636..646).rev().collect();
+
+        // The frame reader gives back what was written, whole or in pieces.
+        let mut reader = FrameReader::open(&path, "sub-01").unwrap();
+        let mut whole = vec![0.0f32; 1001];
+        let mut piece = vec![0.0f32; 100];
+        let mut pieces = vec![0.0f32; 1001];
+        let mut reader_in_pieces = FrameReader::open(&path, "sub-01").unwrap();
+        for t in 0..70 {
+            assert!(reader.next_frame(&mut whole).unwrap());
+            assert!(reader_in_pieces
+                .next_frame_in_pieces(&mut piece, |start, values| {
+                    pieces[start..start + values.len()].copy_from_slice(values)
+                })
+                .unwrap());
+            for v in [0, 150, 250, 777, 1000] {
+                assert_eq!(whole[v].to_bits(), value(v, t).to_bits(), "voxel {v} frame {t}");
+                assert_eq!(pieces[v].to_bits(), value(v, t).to_bits(), "voxel {v} frame {t}");
+            }
+        }
+        assert!(!reader.next_frame(&mut whole).unwrap());
+
+        let maps: Vec<SeedMap> = [64, 128, 192, 1024, PIECE_VOXELS]
+            .iter()
+            .map(|&piece| seed_map_in_pieces(&path, "sub-01", &model, &seed, piece).unwrap())
+            .collect();
+        for map in &maps[1..] {
+            let same = map.r.iter().zip(&maps[0].r).all(|(a, b)| a.to_bits() == b.to_bits());
+            assert!(same, "the piece size changed a correlation");
+        }
+        let map = &maps[0];
+        assert_eq!(map.nonfinite_voxels, 1);
+        assert_eq!(map.constant_voxels, 329);
+        assert_eq!(map.r[520], 0.0);
+        let series = |v: usize| kept_frames.iter().map(|&t| f64::from(value(v, t))).collect::<Vec<f64>>();
+        let seed_mean: Vec<f64> = kept_frames
+            .iter()
+            .map(|&t| seed.iter().map(|&v| f64::from(value(v, t))).sum::<f64>() / seed.len() as f64)
+            .collect();
+        let mut compared = 0;
+        for v in (0..1001).filter(|&v| v != 520) {
+            match direct_r(&series(v), &seed_mean, &model.basis) {
+                Some(expected) => {
+                    assert!((map.r[v] - expected).abs() < 1e-9, "voxel {v}: {} against {expected}", map.r[v]);
+                    compared += 1;
+                }
+                None => assert_eq!(map.r[v], 0.0, "voxel {v} is constant"),
+            }
+        }
+        assert_eq!(compared, 1001 - 329 - 1);
+        // The seed signal shows where it was put (weight v % 5): strong at 604, absent at 605.
+        assert!(map.r[604] > 0.9 && map.r[605].abs() < 0.5, "{} {}", map.r[604], map.r[605]);
+        assert!(map.r[150] != 0.0 && map.r[530] != 0.0);
     }
 }
