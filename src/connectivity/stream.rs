@@ -747,6 +747,11 @@ mod tests {
             }
         }
         assert!(!reader.next_frame(&mut whole).unwrap());
+        // A buffer that is not one frame is an error, not a short or shifted read.
+        let mut reader = FrameReader::open(&path, "sub-01").unwrap();
+        assert!(reader.next_frame(&mut whole[..1000]).is_err());
+        assert!(reader.next_frame_in_pieces(&mut [], |_, _| {}).is_err());
+        assert!(reader.next_frame(&mut whole).unwrap());
 
         let maps: Vec<SeedMap> = [64, 128, 192, 1024, PIECE_VOXELS]
             .iter()

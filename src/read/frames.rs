@@ -183,10 +183,14 @@ impl FrameReader {
     /// read so a gzip file's checksum is verified.
     ///
     /// # Errors
-    /// [`ReadError::Invalid`] naming the frame when the file ends early or fails to decompress.
+    /// [`ReadError::Invalid`] naming the frame when the file ends early or fails to decompress,
+    /// or when `out` does not hold one frame.
     pub fn next_frame(&mut self, out: &mut [f32]) -> Result<bool, ReadError> {
         if self.next == self.frames {
             return Ok(false);
+        }
+        if out.len() != self.voxel_count() {
+            return Err(self.buffer_error(out.len(), "a frame"));
         }
         self.read_values(out)?;
         self.finish_frame()?;
@@ -200,7 +204,7 @@ impl FrameReader {
     /// [`Self::next_frame`].
     ///
     /// # Errors
-    /// As [`Self::next_frame`]; `piece` must not be empty.
+    /// As [`Self::next_frame`], and [`ReadError::Invalid`] when `piece` is empty.
     pub fn next_frame_in_pieces(
         &mut self,
         piece: &mut [f32],
@@ -209,8 +213,11 @@ impl FrameReader {
         if self.next == self.frames {
             return Ok(false);
         }
+        if piece.is_empty() {
+            return Err(self.buffer_error(0, "at least one voxel"));
+        }
         let voxels = self.voxel_count();
-        let step = piece.len().max(1);
+        let step = piece.len();
         let mut start = 0;
         while start < voxels {
             let len = step.min(voxels - start);
@@ -255,6 +262,18 @@ impl FrameReader {
             );
         }
         Ok(())
+    }
+
+    /// The error for a caller's buffer of `len` values where `expected` was needed.
+    fn buffer_error(&self, len: usize, expected: &str) -> ReadError {
+        ReadError::Invalid {
+            path: self.path.clone(),
+            participant: self.participant.clone(),
+            problem: format!(
+                "a buffer of {len} values was given to read {expected} of {} voxels (a caller's error, not the file's)",
+                self.voxel_count()
+            ),
+        }
     }
 
     /// Counts a frame as read; after the last one, reads the rest of the stream so a gzip
