@@ -287,7 +287,9 @@ fn value_offset(slot: usize, frame: usize, blocks: usize) -> usize {
     (frame * blocks + slot) * VOXEL_BLOCK
 }
 
-/// Slots ahead whose values the batch update asks the cache for.
+/// Slots ahead whose values the batch update asks the cache for: with 4, one participant of
+/// `benches/connectivity.sh` took 3% less time than without prefetching, and 8 did no better
+/// (docs/performance.md); no published source.
 const PREFETCH_AHEAD: usize = 4;
 
 /// A block without a slot in the current batch.
