@@ -204,11 +204,11 @@ fn seed_map_in_pieces(
         kept_index += 1;
         filled += 1;
         if filled == FRAME_BATCH {
-            batch.accumulate(&coefficients, filled, width);
+            batch.accumulate(&coefficients, filled);
             filled = 0;
         }
     }
-    batch.accumulate(&coefficients, filled, width);
+    batch.accumulate(&coefficients, filled);
 
     let seed_residual = seed_squares - seed_projection.iter().map(|p| p * p).sum::<f64>();
     if seed_residual.is_nan() || seed_residual <= CONSTANT_TOLERANCE * seed_squares {
@@ -351,9 +351,8 @@ impl BlockBatch {
     }
 
     /// Adds the batch's `filled` frames to the sums and empties the batch; `coefficients` holds
-    /// `width` per frame (the basis row, then the shifted seed value).
-    fn accumulate(&mut self, coefficients: &[f64], filled: usize, width: usize) {
-        debug_assert_eq!(width + 1, self.rows);
+    /// `rows - 1` per frame (the basis row, then the shifted seed value).
+    fn accumulate(&mut self, coefficients: &[f64], filled: usize) {
         #[cfg(target_arch = "x86_64")]
         {
             if std::arch::is_x86_feature_detected!("avx512f") {
